@@ -1,0 +1,108 @@
+//! The top-level analysis: one scenario in, one analysis out.
+
+use crate::params::{self, Derived};
+use crate::scenario::{BridgeKind, DcLoad, Scenario};
+use crate::textbook::{self, FieldError, PulseFamily, TextbookInput, TextbookResult};
+use serde::{Deserialize, Serialize};
+use std::f64::consts::PI;
+
+/// Everything computed for a scenario.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct Analysis {
+    /// Rectifield version that produced this.
+    pub version: String,
+    pub derived: Derived,
+    /// DC current the closed forms were evaluated at, A.
+    pub textbook_i_d_a: f64,
+    pub textbook: TextbookResult,
+    pub warnings: Vec<String>,
+}
+
+/// Map a bridge kind to its closed-form family.
+pub fn family(kind: BridgeKind) -> PulseFamily {
+    match kind {
+        BridgeKind::SixPulseDiode | BridgeKind::SixPulseThyristor => PulseFamily::SixPulse,
+        BridgeKind::ThreePulseDiode | BridgeKind::ThreePulseThyristor => PulseFamily::ThreePulse,
+        BridgeKind::TwelvePulseSeries => PulseFamily::TwelvePulseSeries,
+        BridgeKind::TwelvePulseParallel => PulseFamily::TwelvePulseParallel,
+    }
+}
+
+/// DC current the closed forms predict for the scenario's load, from
+/// `Vd = Vdo cos(alpha) - k w Ls Id / pi` and the load law (derivation: substitute
+/// the load's `Vd(Id)` and solve; for constant power the smaller root of
+/// `k' Id^2 - Vdo cos(alpha) Id + P = 0` is the stable operating point).
+pub fn textbook_dc_current(s: &Scenario, d: &Derived) -> Result<f64, FieldError> {
+    let fam = family(s.bridge.kind);
+    let probe = TextbookInput {
+        family: fam,
+        v_ll_rms_v: s.supply.v_ll_rms_v,
+        f_hz: s.supply.f_hz,
+        l_s_h: d.l_source_h + d.l_reactor_h,
+        alpha_rad: alpha_rad(s),
+        i_d_a: 1.0,
+        h_max: 1,
+    };
+    let r1 = textbook::evaluate(&probe)?;
+    let v0 = r1.vd_alpha_v;
+    let k = r1.commutation_drop_v; // volts per ampere
+    let id = match &s.dc.load {
+        DcLoad::ConstantCurrent { i_a } => *i_a,
+        DcLoad::Resistor { r_ohm } => v0 / (r_ohm + k + s.dc.choke_r_ohm),
+        DcLoad::Rle { r_ohm, e_v, .. } => ((v0 - e_v) / (r_ohm + k + s.dc.choke_r_ohm)).max(0.0),
+        DcLoad::ConstantPower { p_w } => {
+            let kk = k + s.dc.choke_r_ohm;
+            if kk <= 0.0 {
+                p_w / v0
+            } else {
+                let disc = v0 * v0 - 4.0 * kk * p_w;
+                if disc < 0.0 {
+                    return Err(FieldError {
+                        field: "dc.load.p_w".into(),
+                        reason: "more power than the source can deliver through its impedance"
+                            .into(),
+                    });
+                }
+                (v0 - disc.sqrt()) / (2.0 * kk)
+            }
+        }
+    };
+    if !id.is_finite() || id < 0.0 {
+        return Err(FieldError {
+            field: "dc.load".into(),
+            reason: "the load gives no valid DC current".into(),
+        });
+    }
+    Ok(id)
+}
+
+/// Firing angle in radians (0 for diode bridges).
+pub fn alpha_rad(s: &Scenario) -> f64 {
+    if s.bridge.kind.is_controlled() {
+        s.bridge.alpha_deg * PI / 180.0
+    } else {
+        0.0
+    }
+}
+
+/// Analyse one scenario.
+pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
+    let derived = params::derive(s)?;
+    let id = textbook_dc_current(s, &derived)?;
+    let textbook = textbook::evaluate(&TextbookInput {
+        family: family(s.bridge.kind),
+        v_ll_rms_v: s.supply.v_ll_rms_v,
+        f_hz: s.supply.f_hz,
+        l_s_h: derived.l_source_h + derived.l_reactor_h,
+        alpha_rad: alpha_rad(s),
+        i_d_a: id,
+        h_max: s.analysis.h_max.clamp(1, 100),
+    })?;
+    Ok(Analysis {
+        version: env!("CARGO_PKG_VERSION").to_string(),
+        derived,
+        textbook_i_d_a: id,
+        textbook,
+        warnings: Vec::new(),
+    })
+}

@@ -1,0 +1,17 @@
+//! Rectifield: analysis of three-phase rectifiers on a real supply.
+//!
+//! The engine (every module but `wasm`) is pure: no I/O, no JavaScript, no
+//! panics on bad input.  One scenario goes in ([`scenario::Scenario`]), one
+//! analysis comes out ([`analysis::Analysis`]).
+
+pub mod analysis;
+pub mod params;
+pub mod report;
+pub mod scenario;
+pub mod textbook;
+
+#[cfg(target_arch = "wasm32")]
+mod wasm;
+
+pub use analysis::{analyze, Analysis};
+pub use scenario::Scenario;
