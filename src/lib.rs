@@ -11,7 +11,7 @@ pub mod scenario;
 pub mod textbook;
 
 #[cfg(target_arch = "wasm32")]
-mod wasm;
+pub mod wasm;
 
 pub use analysis::{analyze, Analysis};
 pub use scenario::Scenario;
