@@ -55,7 +55,11 @@ fn vdo_scales_with_the_line_voltage_passed_as_json() {
     let a = analyze_json(r#"{"supply": {"v_ll_rms_v": 480, "f_hz": 60}}"#).expect("valid");
     let vdo = num(&a, "textbook.vdo_v");
     assert!(close(vdo, 3.0 * SQRT_2 / PI * 480.0, 1e-9), "vdo_v = {vdo}");
-    assert!(close(num(&a, "derived.omega_rad_s"), 2.0 * PI * 60.0, 1e-12));
+    assert!(close(
+        num(&a, "derived.omega_rad_s"),
+        2.0 * PI * 60.0,
+        1e-12
+    ));
 }
 
 #[wasm_bindgen_test]
@@ -63,7 +67,10 @@ fn six_pulse_harmonics_follow_the_one_over_h_rule() {
     let a = analyze_json("{}").expect("valid");
     let thd = num(&a, "textbook.thd_pct");
     let want_thd = 100.0 * (PI * PI / 9.0 - 1.0).sqrt();
-    assert!(close(thd, want_thd, 1e-6), "thd_pct = {thd}, want {want_thd}");
+    assert!(
+        close(thd, want_thd, 1e-6),
+        "thd_pct = {thd}, want {want_thd}"
+    );
     let list: Array = get(&a, "textbook.harmonics").dyn_into().expect("array");
     assert!(list.length() >= 2, "harmonic table is empty");
     for item in list.iter() {
