@@ -8,6 +8,7 @@ pub mod analysis;
 pub mod params;
 pub mod report;
 pub mod scenario;
+pub mod sim;
 pub mod textbook;
 
 #[cfg(target_arch = "wasm32")]

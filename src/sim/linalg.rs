@@ -1,0 +1,405 @@
+//! Small dense linear algebra for the switched-circuit engine: row-major
+//! matrices, LU with partial pivoting, and the matrix exponential.
+//!
+//! The matrices here are small (the state of a rectifier circuit is 5 to 30
+//! numbers), so plain loops beat a general library in size and speed.
+
+/// Row-major dense matrix.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Mat {
+    pub rows: usize,
+    pub cols: usize,
+    pub data: Vec<f64>,
+}
+
+impl Mat {
+    pub fn zeros(rows: usize, cols: usize) -> Mat {
+        Mat {
+            rows,
+            cols,
+            data: vec![0.0; rows * cols],
+        }
+    }
+
+    pub fn identity(n: usize) -> Mat {
+        let mut m = Mat::zeros(n, n);
+        for i in 0..n {
+            m.data[i * n + i] = 1.0;
+        }
+        m
+    }
+
+    #[inline]
+    pub fn at(&self, r: usize, c: usize) -> f64 {
+        self.data[r * self.cols + c]
+    }
+
+    #[inline]
+    pub fn set(&mut self, r: usize, c: usize, v: f64) {
+        self.data[r * self.cols + c] = v;
+    }
+
+    #[inline]
+    pub fn add_at(&mut self, r: usize, c: usize, v: f64) {
+        self.data[r * self.cols + c] += v;
+    }
+
+    pub fn row(&self, r: usize) -> &[f64] {
+        &self.data[r * self.cols..(r + 1) * self.cols]
+    }
+
+    /// `self * other`.
+    pub fn mul(&self, other: &Mat) -> Mat {
+        debug_assert_eq!(self.cols, other.rows);
+        let mut out = Mat::zeros(self.rows, other.cols);
+        let oc = other.cols;
+        for i in 0..self.rows {
+            let orow = &mut out.data[i * oc..(i + 1) * oc];
+            for k in 0..self.cols {
+                let a = self.data[i * self.cols + k];
+                if a == 0.0 {
+                    continue;
+                }
+                let brow = &other.data[k * oc..(k + 1) * oc];
+                for (o, b) in orow.iter_mut().zip(brow) {
+                    *o += a * b;
+                }
+            }
+        }
+        out
+    }
+
+    /// `self * v`.
+    pub fn mul_vec(&self, v: &[f64]) -> Vec<f64> {
+        let mut out = vec![0.0; self.rows];
+        self.mul_vec_into(v, &mut out);
+        out
+    }
+
+    pub fn mul_vec_into(&self, v: &[f64], out: &mut [f64]) {
+        for (i, o) in out.iter_mut().enumerate().take(self.rows) {
+            let row = &self.data[i * self.cols..(i + 1) * self.cols];
+            *o = row.iter().zip(v).map(|(a, b)| a * b).sum();
+        }
+    }
+
+    pub fn scale(&self, s: f64) -> Mat {
+        Mat {
+            rows: self.rows,
+            cols: self.cols,
+            data: self.data.iter().map(|x| x * s).collect(),
+        }
+    }
+
+    pub fn add(&self, other: &Mat) -> Mat {
+        Mat {
+            rows: self.rows,
+            cols: self.cols,
+            data: self.data.iter().zip(&other.data).map(|(a, b)| a + b).collect(),
+        }
+    }
+
+    /// Infinity norm (max absolute row sum).
+    pub fn norm_inf(&self) -> f64 {
+        (0..self.rows)
+            .map(|i| self.row(i).iter().map(|x| x.abs()).sum::<f64>())
+            .fold(0.0, f64::max)
+    }
+
+    /// 1-norm (max absolute column sum).
+    pub fn norm_1(&self) -> f64 {
+        let mut best: f64 = 0.0;
+        for c in 0..self.cols {
+            let s: f64 = (0..self.rows).map(|r| self.at(r, c).abs()).sum();
+            best = best.max(s);
+        }
+        best
+    }
+}
+
+/// LU factorisation with partial pivoting of a square matrix.
+#[derive(Debug, Clone)]
+pub struct Lu {
+    n: usize,
+    lu: Vec<f64>,
+    piv: Vec<usize>,
+}
+
+impl Lu {
+    /// Factorise; `None` when the matrix is singular to working precision.
+    pub fn new(a: &Mat) -> Option<Lu> {
+        let n = a.rows;
+        let mut lu = a.data.clone();
+        let mut piv: Vec<usize> = (0..n).collect();
+        let scale = a.norm_inf().max(f64::MIN_POSITIVE);
+        for k in 0..n {
+            let mut p = k;
+            let mut best = lu[k * n + k].abs();
+            for i in k + 1..n {
+                let v = lu[i * n + k].abs();
+                if v > best {
+                    best = v;
+                    p = i;
+                }
+            }
+            if !(best > scale * 1e-300) || !best.is_finite() {
+                return None;
+            }
+            if p != k {
+                for j in 0..n {
+                    lu.swap(k * n + j, p * n + j);
+                }
+                piv.swap(k, p);
+            }
+            let d = lu[k * n + k];
+            for i in k + 1..n {
+                let f = lu[i * n + k] / d;
+                lu[i * n + k] = f;
+                if f != 0.0 {
+                    for j in k + 1..n {
+                        lu[i * n + j] -= f * lu[k * n + j];
+                    }
+                }
+            }
+        }
+        Some(Lu { n, lu, piv })
+    }
+
+    /// Solve `A x = b`.
+    pub fn solve(&self, b: &[f64]) -> Vec<f64> {
+        let n = self.n;
+        let mut x: Vec<f64> = self.piv.iter().map(|&p| b[p]).collect();
+        for i in 0..n {
+            let mut s = x[i];
+            for j in 0..i {
+                s -= self.lu[i * n + j] * x[j];
+            }
+            x[i] = s;
+        }
+        for i in (0..n).rev() {
+            let mut s = x[i];
+            for j in i + 1..n {
+                s -= self.lu[i * n + j] * x[j];
+            }
+            x[i] = s / self.lu[i * n + i];
+        }
+        x
+    }
+
+    /// Solve `A X = B` column by column.
+    pub fn solve_mat(&self, b: &Mat) -> Mat {
+        let mut out = Mat::zeros(b.rows, b.cols);
+        let mut col = vec![0.0; b.rows];
+        for c in 0..b.cols {
+            for r in 0..b.rows {
+                col[r] = b.at(r, c);
+            }
+            let x = self.solve(&col);
+            for r in 0..b.rows {
+                out.set(r, c, x[r]);
+            }
+        }
+        out
+    }
+}
+
+/// Matrix exponential `exp(A)` by scaling and squaring with the degree-13 Padé
+/// approximant (N. J. Higham, "The scaling and squaring method for the matrix
+/// exponential revisited", SIAM J. Matrix Anal. Appl. 26(4), 2005, Algorithm
+/// 2.3; the degree-13 coefficients and theta_13 = 5.37 are from that paper's
+/// Table 2.3 / equation 2.7).  Lower degrees are used for small norms.
+///
+/// Returns `None` if the matrix contains non-finite values.
+pub fn expm(a: &Mat) -> Option<Mat> {
+    let n = a.rows;
+    if a.data.iter().any(|x| !x.is_finite()) {
+        return None;
+    }
+    let norm = a.norm_1();
+    const B13: [f64; 14] = [
+        64764752532480000.0,
+        32382376266240000.0,
+        7771770303897600.0,
+        1187353796428800.0,
+        129060195264000.0,
+        10559470521600.0,
+        670442572800.0,
+        33522128640.0,
+        1323241920.0,
+        40840800.0,
+        960960.0,
+        16380.0,
+        182.0,
+        1.0,
+    ];
+    let ident = Mat::identity(n);
+    // Low-degree Padé for small norms (theta values from Higham 2005, Table 2.3).
+    let low: [(usize, f64); 4] = [
+        (3, 1.495585217958292e-2),
+        (5, 2.539398330063230e-1),
+        (7, 9.504178996162932e-1),
+        (9, 2.097847961257068e0),
+    ];
+    for (m, theta) in low {
+        if norm <= theta {
+            return pade_low(a, m, &ident);
+        }
+    }
+    let theta13 = 5.371920351148152;
+    let s = if norm > theta13 {
+        ((norm / theta13).log2().ceil()).max(0.0) as i32
+    } else {
+        0
+    };
+    if s > 1000 {
+        return None;
+    }
+    let a = a.scale(0.5f64.powi(s));
+    let a2 = a.mul(&a);
+    let a4 = a2.mul(&a2);
+    let a6 = a4.mul(&a2);
+    let b = &B13;
+    let lin = |m: &Mat, c: [f64; 3], mats: [&Mat; 3]| -> Mat {
+        let mut out = m.clone();
+        for (ci, mi) in c.iter().zip(mats) {
+            for (o, x) in out.data.iter_mut().zip(&mi.data) {
+                *o += ci * x;
+            }
+        }
+        out
+    };
+    // U = A [A6 (b13 A6 + b11 A4 + b9 A2) + b7 A6 + b5 A4 + b3 A2 + b1 I]
+    let inner_u = lin(&Mat::zeros(n, n), [b[13], b[11], b[9]], [&a6, &a4, &a2]);
+    let u1 = a6.mul(&inner_u);
+    let u2 = lin(&u1, [b[7], b[5], b[3]], [&a6, &a4, &a2]);
+    let u = a.mul(&u2.add(&ident.scale(b[1])));
+    // V = A6 (b12 A6 + b10 A4 + b8 A2) + b6 A6 + b4 A4 + b2 A2 + b0 I
+    let inner_v = lin(&Mat::zeros(n, n), [b[12], b[10], b[8]], [&a6, &a4, &a2]);
+    let v1 = a6.mul(&inner_v);
+    let v = lin(&v1, [b[6], b[4], b[2]], [&a6, &a4, &a2]).add(&ident.scale(b[0]));
+    let mut r = pade_solve(&u, &v)?;
+    for _ in 0..s {
+        r = r.mul(&r);
+    }
+    Some(r)
+}
+
+fn pade_low(a: &Mat, m: usize, ident: &Mat) -> Option<Mat> {
+    let c: &[f64] = match m {
+        3 => &[120.0, 60.0, 12.0, 1.0],
+        5 => &[30240.0, 15120.0, 3360.0, 420.0, 30.0, 1.0],
+        7 => &[17297280.0, 8648640.0, 1995840.0, 277200.0, 25200.0, 1512.0, 56.0, 1.0],
+        _ => &[
+            17643225600.0,
+            8821612800.0,
+            2075673600.0,
+            302702400.0,
+            30270240.0,
+            2162160.0,
+            110880.0,
+            3960.0,
+            90.0,
+            1.0,
+        ],
+    };
+    let n = a.rows;
+    let a2 = a.mul(a);
+    let mut pw = ident.clone();
+    let mut usum = Mat::zeros(n, n);
+    let mut vsum = Mat::zeros(n, n);
+    let mut k = 0;
+    while k <= m {
+        // pw = A^(k) for even k
+        for (o, x) in vsum.data.iter_mut().zip(&pw.data) {
+            *o += c[k] * x;
+        }
+        if k < m {
+            for (o, x) in usum.data.iter_mut().zip(&pw.data) {
+                *o += c[k + 1] * x;
+            }
+        }
+        pw = pw.mul(&a2);
+        k += 2;
+    }
+    let u = a.mul(&usum);
+    pade_solve(&u, &vsum)
+}
+
+/// `(V - U)^{-1} (V + U)`.
+fn pade_solve(u: &Mat, v: &Mat) -> Option<Mat> {
+    let p = v.add(u);
+    let q = v.add(&u.scale(-1.0));
+    let lu = Lu::new(&q)?;
+    let r = lu.solve_mat(&p);
+    if r.data.iter().all(|x| x.is_finite()) {
+        Some(r)
+    } else {
+        None
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn expm_of_rotation_and_decay() {
+        // exp([[0, -w],[w, 0]] t) is a rotation by w t: textbook identity.
+        for &t in &[1e-3, 0.3, 2.0, 40.0] {
+            let w = 2.0;
+            let a = Mat {
+                rows: 2,
+                cols: 2,
+                data: vec![0.0, -w * t, w * t, 0.0],
+            };
+            let e = expm(&a).unwrap();
+            assert!((e.at(0, 0) - (w * t).cos()).abs() < 1e-12 * (1.0 + t));
+            assert!((e.at(1, 0) - (w * t).sin()).abs() < 1e-12 * (1.0 + t));
+        }
+        // Upper-triangular 2x2 with distinct eigenvalues: closed form
+        // exp([[a, b],[0, c]]) = [[e^a, b (e^a - e^c)/(a - c)], [0, e^c]].
+        let (a, b, c) = (-3.0, 5.0, -0.5);
+        let m = Mat {
+            rows: 2,
+            cols: 2,
+            data: vec![a, b, 0.0, c],
+        };
+        let e = expm(&m).unwrap();
+        let off = b * (a.exp() - c.exp()) / (a - c);
+        assert!((e.at(0, 1) - off).abs() < 1e-13);
+        assert!((e.at(1, 1) - c.exp()).abs() < 1e-14);
+    }
+
+    #[test]
+    fn expm_stiff_decay_keeps_slow_mode() {
+        // A fast mode at -1e9 coupled to a slow one at -1: the slow entry must
+        // survive the scaling and squaring (closed form as above).
+        let (a, b, c) = (-1e9, 1e9, -1.0);
+        let m = Mat {
+            rows: 2,
+            cols: 2,
+            data: vec![c, 0.0, b, a],
+        };
+        let e = expm(&m.scale(0.01)).unwrap();
+        let exact = b * ((c * 0.01).exp() - (a * 0.01).exp()) / (c - a);
+        assert!((e.at(1, 0) - exact).abs() < 1e-9, "{} vs {exact}", e.at(1, 0));
+        assert!((e.at(0, 0) - (-0.01f64).exp()).abs() < 1e-12);
+    }
+
+    #[test]
+    fn lu_solves() {
+        let a = Mat {
+            rows: 3,
+            cols: 3,
+            data: vec![0.0, 2.0, 1.0, 1.0, 1.0, 0.0, 3.0, 0.0, 1.0],
+        };
+        let lu = Lu::new(&a).unwrap();
+        let x = lu.solve(&[5.0, 3.0, 6.0]);
+        let b = a.mul_vec(&x);
+        for (bi, ei) in b.iter().zip([5.0, 3.0, 6.0]) {
+            assert!((bi - ei).abs() < 1e-12);
+        }
+        let sing = Mat::zeros(2, 2);
+        assert!(Lu::new(&sing).is_none());
+    }
+}

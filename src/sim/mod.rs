@@ -1,0 +1,471 @@
+//! The exact switched-circuit simulation: periodic steady state and power-up
+//! transient of a scenario's circuit.
+
+pub mod build;
+pub mod circuit;
+pub mod linalg;
+pub mod solver;
+
+use crate::params::Derived;
+use crate::scenario::{DcLoad, Scenario};
+use build::{Basic, Built, Probe};
+use circuit::{Element, Topology};
+use serde::{Deserialize, Serialize};
+use solver::{ContactorRule, Engine, RunSpec, SolveError};
+use std::f64::consts::PI;
+
+/// One harmonic of a signal.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Harmonic {
+    pub order: u32,
+    /// RMS magnitude (unit of the signal).
+    pub rms: f64,
+    /// Phase of `cos(h w t + phase)`, degrees.
+    pub phase_deg: f64,
+}
+
+/// A computed signal over one period.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Signal {
+    pub name: String,
+    pub unit: String,
+    /// Samples on the uniform grid `t_s` (right-hand limits at switching instants).
+    pub samples: Vec<f64>,
+    pub mean: f64,
+    pub rms: f64,
+    pub min: f64,
+    pub max: f64,
+    /// Harmonics 1..=h_max (only for the signals that need them; else empty).
+    pub harmonics: Vec<Harmonic>,
+}
+
+/// A switching instant.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SwitchEvent {
+    pub t_s: f64,
+    pub device: String,
+    pub on: bool,
+}
+
+/// The power-up transient from a discharged bus.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Transient {
+    pub t_s: Vec<f64>,
+    pub v_dc: Vec<f64>,
+    pub i_a: Vec<f64>,
+    pub i_b: Vec<f64>,
+    pub i_c: Vec<f64>,
+    /// Largest line-current magnitude, A.
+    pub inrush_peak_a: f64,
+    /// Time for the bus to first reach 90 % of its steady mean, s (None if it did not).
+    pub charge_time_s: Option<f64>,
+    /// When the precharge bypass closed, s.
+    pub bypass_at_s: Option<f64>,
+}
+
+/// Simulation results.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SimResult {
+    pub period_s: f64,
+    /// Uniform grid over one period, s.
+    pub t_s: Vec<f64>,
+    pub signals: Vec<Signal>,
+    pub events: Vec<SwitchEvent>,
+    pub device_names: Vec<String>,
+    /// Index of named roles in `signals`.
+    pub roles: RoleIndex,
+    /// Mean instantaneous power per phase `mean(v_k i_k)` at the EMF, W.
+    pub p_phase_w: [f64; 3],
+    /// Mean power into the DC load terminals `mean(v_dc i_load)`, W.
+    pub p_load_w: f64,
+    pub newton_iterations: usize,
+    pub residual: f64,
+    pub topologies: usize,
+    pub warnings: Vec<String>,
+    pub transient: Option<Transient>,
+}
+
+/// Indexes of the signals with a role.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq, Default)]
+pub struct RoleIndex {
+    pub phase_v: [usize; 3],
+    pub line_i: [usize; 3],
+    pub pcc_v: [usize; 3],
+    pub v_dc: usize,
+    pub i_dc: usize,
+    pub v_bridge: usize,
+    pub i_cap: Option<usize>,
+    pub i_load: usize,
+    pub i_choke: Option<usize>,
+    pub devices: Vec<(usize, usize)>,
+    pub secondary_i: Vec<[usize; 3]>,
+}
+
+fn probe_row(p: &Probe, t: &Topology) -> Vec<f64> {
+    let mut row = vec![0.0; t.f.cols];
+    for &(b, c) in &p.terms {
+        let r = match b {
+            Basic::Node(n) => t.node_v.row(n),
+            Basic::Elem(e) => t.elem_i.row(e),
+        };
+        for (o, x) in row.iter_mut().zip(r) {
+            *o += c * x;
+        }
+    }
+    row
+}
+
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| x * y).sum()
+}
+
+/// Simulation settings.
+#[derive(Debug, Clone)]
+pub struct SimConfig {
+    pub h_max: u32,
+    pub grid_points: usize,
+    pub transient_cycles: u32,
+}
+
+impl SimConfig {
+    pub fn from_scenario(s: &Scenario) -> SimConfig {
+        SimConfig {
+            h_max: s.analysis.h_max.clamp(1, 100),
+            grid_points: s.analysis.grid_points.clamp(60, 20_000),
+            transient_cycles: s.analysis.transient_cycles.min(2000),
+        }
+    }
+}
+
+fn err(reason: &str, hint: &str) -> SolveError {
+    SolveError {
+        reason: reason.into(),
+        hint: hint.into(),
+    }
+}
+
+/// Solve the periodic steady state (with the constant-power load's outer
+/// loop) and return the engine positioned at the solution.
+fn steady(built: &mut Built, s: &Scenario, cfg: &SimConfig, period: f64) -> Result<(Engine, solver::SteadyState, usize), SolveError> {
+    let mut eng = Engine::new(
+        built.circuit.clone(),
+        period,
+        cfg.grid_points,
+        1e-8 * built.i_base_a,
+        1e-8 * built.v_base_v,
+    );
+    // The precharge bypass is closed in steady state.
+    let x_guess = built.x_guess.clone();
+    let mut st = solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 2, 40)?;
+    let mut outer = 0;
+    if let (Some((ei, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
+        // Outer loop on the linearisation point V0 = mean bus voltage.
+        for _ in 0..30 {
+            outer += 1;
+            let mean_v = mean_of(&mut eng, built, built.roles.v_dc, &st)?;
+            if !(mean_v > 0.0) {
+                return Err(err(
+                    "the bus collapses under the constant-power load",
+                    "the supply cannot deliver this power through its impedance; reduce the power or the impedance",
+                ));
+            }
+            let v0_old = match eng.circuit.elements[ei] {
+                Element::CurrentSource { i_a, .. } => 2.0 * p_w / i_a,
+                _ => mean_v,
+            };
+            if (mean_v - v0_old).abs() < 1e-9 * mean_v {
+                break;
+            }
+            let mut c = eng.circuit.clone();
+            if let Element::CurrentSource { i_a, .. } = &mut c.elements[ei] {
+                *i_a = 2.0 * p_w / mean_v;
+            }
+            if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
+                *g_s = -p_w / (mean_v * mean_v);
+            }
+            built.circuit = c.clone();
+            let x0 = st.x0.clone();
+            let on0 = st.on0.clone();
+            eng = Engine::new(c, period, cfg.grid_points, eng.i_tol_a, eng.v_tol_v);
+            st = solver::solve_periodic_from(&mut eng, &x0, &on0, &built.x_scale, 40)?;
+        }
+    }
+    Ok((eng, st, outer))
+}
+
+fn mean_of(eng: &mut Engine, built: &Built, probe: usize, st: &solver::SteadyState) -> Result<f64, SolveError> {
+    let run = eng.run(
+        &st.x0,
+        &st.on0,
+        &RunSpec {
+            t0_s: 0.0,
+            t1_s: eng.period_s,
+            record: true,
+            sensitivity: false,
+            contactor_close: None,
+        },
+    )?;
+    let mut acc = 0.0;
+    for p in &run.pieces {
+        let td = eng.topo_key(p.key)?;
+        let row = probe_row(&built.probes[probe], &td.topo);
+        for (_, w, z) in eng.gauss_states(p)? {
+            acc += w * dot(&row, &z);
+        }
+    }
+    Ok(acc / eng.period_s)
+}
+
+/// Run the simulation for a scenario.
+pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
+    let cfg = SimConfig::from_scenario(s);
+    let period = 1.0 / s.supply.f_hz;
+    let mut built = build::build(s, d);
+    let (mut eng, st, _outer) = steady(&mut built, s, &cfg, period)?;
+    let run = eng.run(
+        &st.x0,
+        &st.on0,
+        &RunSpec {
+            t0_s: 0.0,
+            t1_s: period,
+            record: true,
+            sensitivity: false,
+            contactor_close: None,
+        },
+    )?;
+    let n_probe = built.probes.len();
+    let r = built.roles.clone();
+    let mut harm_signals: Vec<usize> = Vec::new();
+    harm_signals.extend(r.phase_v);
+    harm_signals.extend(r.line_i);
+    harm_signals.extend(r.pcc_v);
+    harm_signals.push(r.v_dc);
+    harm_signals.push(r.i_dc);
+    if let Some(c) = r.i_cap {
+        harm_signals.push(c);
+    }
+    for sec in &r.secondary_i {
+        harm_signals.extend(sec);
+    }
+    harm_signals.sort();
+    harm_signals.dedup();
+    let h_max = cfg.h_max as usize;
+    let mut sum = vec![0.0; n_probe];
+    let mut sum2 = vec![0.0; n_probe];
+    let mut mn = vec![f64::INFINITY; n_probe];
+    let mut mx = vec![f64::NEG_INFINITY; n_probe];
+    let mut four = vec![vec![(0.0f64, 0.0f64); h_max + 1]; harm_signals.len()];
+    let mut p_phase = [0.0; 3];
+    let mut p_load = 0.0;
+    let w = 2.0 * PI / period;
+    let mut rows_cache: std::collections::HashMap<u64, Vec<Vec<f64>>> = std::collections::HashMap::new();
+    let mut vals = vec![0.0; n_probe];
+    for p in &run.pieces {
+        if !rows_cache.contains_key(&p.key) {
+            let td = eng.topo_key(p.key)?;
+            let rows: Vec<Vec<f64>> = built.probes.iter().map(|pr| probe_row(pr, &td.topo)).collect();
+            rows_cache.insert(p.key, rows);
+        }
+        let rows = &rows_cache[&p.key];
+        // Ends of the piece count for min and max.
+        let gs = eng.gauss_states(p)?;
+        for (i, row) in rows.iter().enumerate() {
+            let v = dot(row, &p.z);
+            mn[i] = mn[i].min(v);
+            mx[i] = mx[i].max(v);
+        }
+        for (t, wt, z) in gs {
+            for (i, row) in rows.iter().enumerate() {
+                vals[i] = dot(row, &z);
+                sum[i] += wt * vals[i];
+                sum2[i] += wt * vals[i] * vals[i];
+                mn[i] = mn[i].min(vals[i]);
+                mx[i] = mx[i].max(vals[i]);
+            }
+            for k in 0..3 {
+                p_phase[k] += wt * vals[r.phase_v[k]] * vals[r.line_i[k]];
+            }
+            p_load += wt * vals[r.v_dc] * vals[r.i_load];
+            let (s1, c1) = (w * t).sin_cos();
+            let (mut ch, mut sh) = (1.0f64, 0.0f64);
+            for h in 1..=h_max {
+                // cos(h w t), sin(h w t) by recurrence.
+                let nc = ch * c1 - sh * s1;
+                let ns = sh * c1 + ch * s1;
+                ch = nc;
+                sh = ns;
+                for (j, &si) in harm_signals.iter().enumerate() {
+                    let v = vals[si] * wt;
+                    four[j][h].0 += v * ch;
+                    four[j][h].1 += v * sh;
+                }
+            }
+        }
+    }
+    let grid_t: Vec<f64> = run.knots.iter().map(|k| k.0).collect();
+    let mut signals = Vec::with_capacity(n_probe);
+    let mut knot_rows: std::collections::HashMap<u64, Vec<Vec<f64>>> = std::collections::HashMap::new();
+    for k in &run.knots {
+        if !knot_rows.contains_key(&k.1) {
+            let td = eng.topo_key(k.1)?;
+            knot_rows.insert(k.1, built.probes.iter().map(|pr| probe_row(pr, &td.topo)).collect());
+        }
+    }
+    for (i, pr) in built.probes.iter().enumerate() {
+        let samples: Vec<f64> = run.knots.iter().map(|k| dot(&knot_rows[&k.1][i], &k.2)).collect();
+        let mean = sum[i] / period;
+        let rms = (sum2[i] / period).max(0.0).sqrt();
+        let harmonics = match harm_signals.iter().position(|&x| x == i) {
+            Some(j) => (1..=h_max)
+                .map(|h| {
+                    // a_h = 2/T int v cos, b_h = 2/T int v sin; v = A cos(h w t + phi)
+                    // gives a = A cos phi, b = -A sin phi.
+                    let a = 2.0 * four[j][h].0 / period;
+                    let b = 2.0 * four[j][h].1 / period;
+                    Harmonic {
+                        order: h as u32,
+                        rms: (a * a + b * b).sqrt() / 2f64.sqrt(),
+                        phase_deg: (-b).atan2(a).to_degrees(),
+                    }
+                })
+                .collect(),
+            None => Vec::new(),
+        };
+        signals.push(Signal {
+            name: pr.name.clone(),
+            unit: pr.unit.to_string(),
+            samples,
+            mean,
+            rms,
+            min: mn[i],
+            max: mx[i],
+            harmonics,
+        });
+    }
+    let events = run
+        .events
+        .iter()
+        .map(|e| SwitchEvent {
+            t_s: e.t_s,
+            device: built.device_names.get(e.switch).cloned().unwrap_or_else(|| "precharge bypass".into()),
+            on: e.on,
+        })
+        .collect();
+    let mut warnings = Vec::new();
+    if let Some(ic) = r.i_choke {
+        if signals[ic].min <= 1e-6 * built.i_base_a {
+            warnings.push("discontinuous conduction: the DC choke current falls to zero in each period".into());
+        }
+    }
+    let transient = if cfg.transient_cycles > 0 {
+        Some(power_up(&built, s, &cfg, period, signals[r.v_dc].mean, &mut warnings)?)
+    } else {
+        None
+    };
+    let roles = RoleIndex {
+        phase_v: r.phase_v,
+        line_i: r.line_i,
+        pcc_v: r.pcc_v,
+        v_dc: r.v_dc,
+        i_dc: r.i_dc,
+        v_bridge: r.v_bridge,
+        i_cap: r.i_cap,
+        i_load: r.i_load,
+        i_choke: r.i_choke,
+        devices: r.devices.clone(),
+        secondary_i: r.secondary_i.clone(),
+    };
+    Ok(SimResult {
+        period_s: period,
+        t_s: grid_t,
+        signals,
+        events,
+        device_names: built.device_names.clone(),
+        roles,
+        p_phase_w: p_phase.map(|x| x / period),
+        p_load_w: p_load / period,
+        newton_iterations: st.iterations,
+        residual: st.residual,
+        topologies: eng_topologies(&eng),
+        warnings,
+        transient,
+    })
+}
+
+fn eng_topologies(e: &Engine) -> usize {
+    e.cache_len()
+}
+
+/// Power-up from a discharged bus: every state zero at t = 0, the precharge
+/// bypass open until its rule closes it.
+fn power_up(built: &Built, s: &Scenario, cfg: &SimConfig, period: f64, v_mean: f64, warnings: &mut Vec<String>) -> Result<Transient, SolveError> {
+    let mut eng = Engine::new(built.circuit.clone(), period, cfg.grid_points.min(720), 1e-8 * built.i_base_a, 1e-8 * built.v_base_v);
+    let nx = eng.circuit.n_x();
+    let on0 = vec![false; eng.circuit.switches.len()];
+    let rule = if built.has_contactor {
+        let peak = 2f64.sqrt() * s.supply.v_ll_rms_v;
+        Some(ContactorRule {
+            at_s: if s.dc.precharge_bypass_s > 0.0 { s.dc.precharge_bypass_s } else { f64::INFINITY },
+            node_a: built.bus_nodes.0,
+            node_b: built.bus_nodes.1,
+            level_v: if s.dc.precharge_bypass_pu > 0.0 { s.dc.precharge_bypass_pu * peak } else { f64::INFINITY },
+        })
+    } else {
+        None
+    };
+    let t1 = period * cfg.transient_cycles as f64;
+    let run = eng.run(
+        &vec![0.0; nx],
+        &on0,
+        &RunSpec {
+            t0_s: 0.0,
+            t1_s: t1,
+            record: true,
+            sensitivity: false,
+            contactor_close: rule,
+        },
+    )?;
+    let r = &built.roles;
+    let mut t_s = Vec::new();
+    let (mut v_dc, mut ia, mut ib, mut ic) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    let mut peak: f64 = 0.0;
+    let mut charge = None;
+    for k in &run.knots {
+        let td = eng.topo_key(k.1)?;
+        let v = dot(&probe_row(&built.probes[r.v_dc], &td.topo), &k.2);
+        let i = [0, 1, 2].map(|j| dot(&probe_row(&built.probes[r.line_i[j]], &td.topo), &k.2));
+        t_s.push(k.0);
+        v_dc.push(v);
+        ia.push(i[0]);
+        ib.push(i[1]);
+        ic.push(i[2]);
+        peak = peak.max(i[0].abs()).max(i[1].abs()).max(i[2].abs());
+        if charge.is_none() && v >= 0.9 * v_mean && v_mean > 0.0 {
+            charge = Some(k.0);
+        }
+    }
+    // Peaks between grid points: check the Gauss states too.
+    for p in &run.pieces {
+        let td = eng.topo_key(p.key)?;
+        let rows: Vec<Vec<f64>> = r.line_i.iter().map(|&j| probe_row(&built.probes[j], &td.topo)).collect();
+        for (_, _, z) in eng.gauss_states(p)? {
+            for row in &rows {
+                peak = peak.max(dot(row, &z).abs());
+            }
+        }
+    }
+    let bypass_at_s = run.events.iter().find(|e| built.device_names.get(e.switch).is_none()).map(|e| e.t_s);
+    if charge.is_none() {
+        warnings.push("the bus did not reach 90 % of its steady value within the power-up window".into());
+    }
+    Ok(Transient {
+        t_s,
+        v_dc,
+        i_a: ia,
+        i_b: ib,
+        i_c: ic,
+        inrush_peak_a: peak,
+        charge_time_s: charge,
+        bypass_at_s,
+    })
+}

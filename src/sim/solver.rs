@@ -1,0 +1,728 @@
+//! Event-driven exact integration of a piecewise-linear circuit, and the
+//! periodic steady state by shooting (Newton on the initial state with the
+//! monodromy matrix, saltation included).
+//!
+//! Within a topology `z(t0 + tau) = expm(F tau) z(t0)` exactly.  The period is
+//! marched on a uniform grid with the cached step matrix `expm(F h)`; at each
+//! grid step every switch's condition (current of an on device, voltage of an
+//! off device) is checked, and a crossing is located by safeguarded Newton on
+//! `c . expm(F tau) z`, whose derivative `c . F expm(F tau) z` is exact.  After a
+//! switch flips, the new topology is "settled": any device whose condition is
+//! now violated flips too, one at a time.
+//!
+//! Steady state: the map from the state at t = 0 to the state at t = T is
+//! smooth away from grazing events; its Jacobian is the product of the step
+//! matrices and, at each state-triggered event, the saltation matrix
+//! `I + (F+ z - F- z) c^T / (c^T F- z)` (Aizerman and Gantmacher 1958; see
+//! e.g. Leine and Nijmeijer, *Dynamics and Bifurcations of Non-Smooth
+//! Mechanical Systems*, Springer 2004, ch. 7).  Newton on `P(x0) - x0 = 0`
+//! converges in a few periods whatever the circuit's time constants.
+
+use super::circuit::{Circuit, Element, SwitchKind, Topology};
+use super::linalg::{expm, Lu, Mat};
+use std::collections::HashMap;
+use std::rc::Rc;
+
+/// Gauss-Legendre nodes and weights on [-1, 1], 4 points (Abramowitz and
+/// Stegun, Table 25.4).
+pub const GL_X: [f64; 4] = [
+    -0.861_136_311_594_052_6,
+    -0.339_981_043_584_856_3,
+    0.339_981_043_584_856_3,
+    0.861_136_311_594_052_6,
+];
+pub const GL_W: [f64; 4] = [
+    0.347_854_845_137_453_9,
+    0.652_145_154_862_546_1,
+    0.652_145_154_862_546_1,
+    0.347_854_845_137_453_9,
+];
+
+/// Solver error: what failed and a hint.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolveError {
+    pub reason: String,
+    pub hint: String,
+}
+
+impl std::fmt::Display for SolveError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{} ({})", self.reason, self.hint)
+    }
+}
+
+fn fail(reason: &str, hint: &str) -> SolveError {
+    SolveError {
+        reason: reason.into(),
+        hint: hint.into(),
+    }
+}
+
+/// Cached data of one topology.
+pub struct TopoData {
+    pub topo: Topology,
+    /// `expm(F h)` for the grid step.
+    pub step: Mat,
+    /// `expm(F h (1 + x_j) / 2)` at the Gauss nodes of a full step.
+    pub gl: Vec<Mat>,
+}
+
+/// A recorded piece of trajectory: from `t_s` for `dt_s` in topology `key`, starting at `z`.
+#[derive(Debug, Clone)]
+pub struct Piece {
+    pub t_s: f64,
+    pub dt_s: f64,
+    pub key: u64,
+    pub z: Vec<f64>,
+}
+
+/// A switching event.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Event {
+    pub t_s: f64,
+    pub switch: usize,
+    pub on: bool,
+}
+
+/// Result of marching one interval.
+pub struct RunOut {
+    pub x_end: Vec<f64>,
+    pub on_end: Vec<bool>,
+    /// d x(T) / d x(0), when asked for.
+    pub monodromy: Option<Mat>,
+    pub pieces: Vec<Piece>,
+    pub events: Vec<Event>,
+    /// Grid knots: (time, key, z) at every grid point (right-hand topology).
+    pub knots: Vec<(f64, u64, Vec<f64>)>,
+}
+
+/// Marching controls for a run.
+pub struct RunSpec {
+    pub t0_s: f64,
+    pub t1_s: f64,
+    pub record: bool,
+    pub sensitivity: bool,
+    /// Extra condition: close contactors when `probe . z >= level`, or at `time`.
+    pub contactor_close: Option<ContactorRule>,
+}
+
+/// When a contactor (precharge bypass) closes.
+#[derive(Debug, Clone, Copy)]
+pub struct ContactorRule {
+    /// Close at this time (s), if finite.
+    pub at_s: f64,
+    /// Node pair whose voltage is compared with `level_v`.
+    pub node_a: usize,
+    pub node_b: usize,
+    pub level_v: f64,
+}
+
+/// The engine for one circuit.
+pub struct Engine {
+    pub circuit: Circuit,
+    pub period_s: f64,
+    pub h_s: f64,
+    pub i_tol_a: f64,
+    pub v_tol_v: f64,
+    cache: HashMap<u64, Rc<TopoData>>,
+    pub max_events: usize,
+    pub n_expm: usize,
+    pub n_events: usize,
+    /// Times (within the period) where the march must stop: gate openings.
+    gate_times: Vec<f64>,
+}
+
+impl Engine {
+    pub fn new(circuit: Circuit, period_s: f64, steps_per_period: usize, i_tol_a: f64, v_tol_v: f64) -> Engine {
+        let mut gate_times: Vec<f64> = circuit
+            .switches
+            .iter()
+            .filter_map(|&e| match &circuit.elements[e] {
+                Element::Switch {
+                    kind: SwitchKind::Thyristor { fire_s, .. },
+                    ..
+                } => Some(fire_s.rem_euclid(period_s)),
+                _ => None,
+            })
+            .collect();
+        gate_times.sort_by(|a, b| a.total_cmp(b));
+        gate_times.dedup_by(|a, b| (*a - *b).abs() < 1e-15 * period_s);
+        Engine {
+            circuit,
+            period_s,
+            h_s: period_s / steps_per_period as f64,
+            i_tol_a,
+            v_tol_v,
+            cache: HashMap::new(),
+            max_events: 400 * 64,
+            n_expm: 0,
+            n_events: 0,
+            gate_times,
+        }
+    }
+
+    pub fn key(on: &[bool]) -> u64 {
+        on.iter()
+            .enumerate()
+            .fold(0u64, |k, (i, &b)| if b { k | (1 << i) } else { k })
+    }
+
+    pub fn on_from_key(&self, key: u64) -> Vec<bool> {
+        (0..self.circuit.switches.len()).map(|i| key & (1 << i) != 0).collect()
+    }
+
+    /// The cached model of a topology.
+    pub fn topo(&mut self, on: &[bool]) -> Result<Rc<TopoData>, SolveError> {
+        let key = Self::key(on);
+        if let Some(t) = self.cache.get(&key) {
+            return Ok(t.clone());
+        }
+        let topo = self.circuit.topology(on).ok_or_else(|| {
+            fail(
+                "the circuit equations are singular in one conduction state",
+                "check for a zero resistance or a capacitor placed directly across a source",
+            )
+        })?;
+        let step = expm(&topo.f.scale(self.h_s)).ok_or_else(|| fail("state matrix is not finite", "check the element values"))?;
+        let mut gl = Vec::with_capacity(4);
+        for x in GL_X {
+            gl.push(
+                expm(&topo.f.scale(self.h_s * (1.0 + x) / 2.0))
+                    .ok_or_else(|| fail("state matrix is not finite", "check the element values"))?,
+            );
+        }
+        self.n_expm += 5;
+        let d = Rc::new(TopoData { topo, step, gl });
+        if self.cache.len() < 4096 {
+            self.cache.insert(key, d.clone());
+        }
+        Ok(d)
+    }
+
+    /// Cached model by key.
+    pub fn topo_key(&mut self, key: u64) -> Result<Rc<TopoData>, SolveError> {
+        let on = self.on_from_key(key);
+        self.topo(&on)
+    }
+
+    pub fn expm_scaled(&mut self, f: &Mat, tau: f64) -> Result<Mat, SolveError> {
+        self.n_expm += 1;
+        expm(&f.scale(tau)).ok_or_else(|| fail("state matrix is not finite", "check the element values"))
+    }
+
+    fn gate_active(&self, kind: &SwitchKind, t_s: f64) -> bool {
+        match kind {
+            SwitchKind::Diode => true,
+            SwitchKind::Thyristor { fire_s, width_s } => {
+                let d = (t_s - fire_s).rem_euclid(self.period_s);
+                d < *width_s || (self.period_s - d) < 1e-12 * self.period_s
+            }
+            SwitchKind::Contactor => false,
+        }
+    }
+
+    /// Condition row `c` of switch `k` in topology `t`, and whether a positive
+    /// value of `c . z` means "on" (true for on devices: current; for off
+    /// devices the value is `v_ak - v_th`, positive means it wants to turn on).
+    fn cond_row(&self, t: &Topology, k: usize, on: bool) -> Vec<f64> {
+        let e = self.circuit.switches[k];
+        let ci = self.circuit.const_idx();
+        match &self.circuit.elements[e] {
+            Element::Switch { a, b, v_th_v, .. } => {
+                if on {
+                    t.elem_i.row(e).to_vec()
+                } else {
+                    let mut r: Vec<f64> = t.node_v.row(*a).iter().zip(t.node_v.row(*b)).map(|(x, y)| x - y).collect();
+                    r[ci] -= v_th_v;
+                    r
+                }
+            }
+            _ => vec![0.0; self.circuit.n_z()],
+        }
+    }
+
+    /// Is switch `k` allowed to change state at time `t` (by its kind)?
+    fn may_switch(&self, k: usize, on: bool, t_s: f64) -> bool {
+        let e = self.circuit.switches[k];
+        match &self.circuit.elements[e] {
+            Element::Switch { kind, open, .. } => {
+                if *open {
+                    return false;
+                }
+                match kind {
+                    SwitchKind::Contactor => false,
+                    _ if on => true, // turning off: natural commutation
+                    other => self.gate_active(other, t_s),
+                }
+            }
+            _ => false,
+        }
+    }
+
+    /// Violation measure of switch `k` (> 1 means it must flip).
+    fn violation(&self, t: &Topology, k: usize, on: bool, z: &[f64], t_s: f64) -> f64 {
+        if !self.may_switch(k, on, t_s) {
+            return 0.0;
+        }
+        let v: f64 = dot(&self.cond_row(t, k, on), z);
+        if on {
+            -v / self.i_tol_a
+        } else {
+            v / self.v_tol_v
+        }
+    }
+
+    /// Flip violating switches one at a time until the topology is consistent.
+    pub fn settle(&mut self, on: &mut [bool], z: &[f64], t_s: f64, events: &mut Vec<Event>) -> Result<Rc<TopoData>, SolveError> {
+        let n = on.len();
+        for _ in 0..(4 * n + 8) {
+            let td = self.topo(on)?;
+            let mut worst = (1.0, usize::MAX);
+            for k in 0..n {
+                let v = self.violation(&td.topo, k, on[k], z, t_s);
+                if v > worst.0 {
+                    worst = (v, k);
+                }
+            }
+            if worst.1 == usize::MAX {
+                return Ok(td);
+            }
+            on[worst.1] = !on[worst.1];
+            events.push(Event {
+                t_s,
+                switch: worst.1,
+                on: on[worst.1],
+            });
+            self.n_events += 1;
+        }
+        Err(fail(
+            "the devices do not settle into a consistent conduction state",
+            "the circuit may be at the edge of conduction; change the load or the firing angle slightly",
+        ))
+    }
+
+    /// March from `spec.t0_s` to `spec.t1_s` starting with physical state `x0`
+    /// and switch states `on0`.
+    pub fn run(&mut self, x0: &[f64], on0: &[bool], spec: &RunSpec) -> Result<RunOut, SolveError> {
+        let nx = self.circuit.n_x();
+        let nz = self.circuit.n_z();
+        let mut z = self.circuit.init_z(x0);
+        self.circuit.osc_at(&mut z, spec.t0_s);
+        let mut on = on0.to_vec();
+        let mut events = Vec::new();
+        let mut pieces = Vec::new();
+        let mut knots = Vec::new();
+        let mut td = self.settle(&mut on, &z, spec.t0_s, &mut events)?;
+        let mut sens = if spec.sensitivity {
+            let mut s = Mat::zeros(nz, nx);
+            for i in 0..nx {
+                s.set(i, i, 1.0);
+            }
+            Some(s)
+        } else {
+            None
+        };
+        let mut t = spec.t0_s;
+        let h = self.h_s;
+        let mut grid_index: u64 = ((t / h) + 1e-9).floor() as u64;
+        let mut contactor_done = spec.contactor_close.is_none();
+        let mut n_ev = 0usize;
+        if spec.record {
+            knots.push((t, Self::key(&on), z.clone()));
+        }
+        let end_tol = 1e-12 * self.period_s;
+        while t < spec.t1_s - end_tol {
+            // Next stop: the next grid point, a gate opening, or the end.
+            let mut t_next = ((grid_index + 1) as f64 * h).min(spec.t1_s);
+            let mut at_grid = true;
+            let base = (t / self.period_s).floor() * self.period_s;
+            for &g in &self.gate_times {
+                for cand in [base + g, base + g + self.period_s] {
+                    if cand > t + end_tol && cand < t_next - end_tol {
+                        t_next = cand;
+                        at_grid = false;
+                    }
+                }
+            }
+            if let Some(rule) = &spec.contactor_close {
+                if !contactor_done && rule.at_s.is_finite() && rule.at_s > t + end_tol && rule.at_s < t_next - end_tol {
+                    t_next = rule.at_s;
+                    at_grid = false;
+                }
+            }
+            let dt = t_next - t;
+            let full = (dt - h).abs() < 1e-9 * h;
+            let e_step = if full { td.step.clone() } else { self.expm_scaled(&td.topo.f, dt)? };
+            let z_end = e_step.mul_vec(&z);
+            // Find the earliest crossing among the switches.
+            let mut first: Option<(f64, usize, Vec<f64>)> = None;
+            for k in 0..on.len() {
+                if !self.may_switch(k, on[k], t_next) && !self.may_switch(k, on[k], t) {
+                    continue;
+                }
+                let v_end = self.violation(&td.topo, k, on[k], &z_end, t_next);
+                if v_end <= 1.0 {
+                    continue;
+                }
+                let c = self.cond_row(&td.topo, k, on[k]);
+                let (tau, zr) = self.locate(&td.topo.f, &c, &z, &z_end, dt, on[k])?;
+                // A gated device may only fire within its window.
+                if !self.may_switch(k, on[k], t + tau) {
+                    continue;
+                }
+                if first.as_ref().is_none_or(|f| tau < f.0) {
+                    first = Some((tau, k, zr));
+                }
+            }
+            // Contactor closing by voltage.
+            let mut contactor_now = false;
+            if let Some(rule) = &spec.contactor_close {
+                if !contactor_done {
+                    let row: Vec<f64> = td
+                        .topo
+                        .node_v
+                        .row(rule.node_a)
+                        .iter()
+                        .zip(td.topo.node_v.row(rule.node_b))
+                        .map(|(a, b)| a - b)
+                        .collect();
+                    let v_end = dot(&row, &z_end);
+                    if rule.level_v.is_finite() && v_end >= rule.level_v {
+                        let mut c = row.clone();
+                        c[self.circuit.const_idx()] -= rule.level_v;
+                        let (tau, zr) = self.locate(&td.topo.f, &c, &z, &z_end, dt, false)?;
+                        if first.as_ref().is_none_or(|f| tau < f.0) {
+                            first = Some((tau, usize::MAX, zr));
+                        }
+                    } else if !at_grid && rule.at_s.is_finite() && (t_next - rule.at_s).abs() < end_tol {
+                        contactor_now = true;
+                    }
+                }
+            }
+            match first {
+                Some((tau, k, zr)) if tau < dt - end_tol => {
+                    // Event inside the step.
+                    if spec.record {
+                        pieces.push(Piece {
+                            t_s: t,
+                            dt_s: tau,
+                            key: Self::key(&on),
+                            z: z.clone(),
+                        });
+                    }
+                    if let Some(s) = sens.as_mut() {
+                        let e_tau = self.expm_scaled(&td.topo.f, tau)?;
+                        *s = e_tau.mul(s);
+                    }
+                    t += tau;
+                    let f_old = td.topo.f.mul_vec(&zr);
+                    let c = if k == usize::MAX { None } else { Some(self.cond_row(&td.topo, k, on[k])) };
+                    if k == usize::MAX {
+                        self.close_contactors(&mut on, t, &mut events);
+                        contactor_done = true;
+                    } else {
+                        on[k] = !on[k];
+                        events.push(Event { t_s: t, switch: k, on: on[k] });
+                        self.n_events += 1;
+                    }
+                    td = self.topo(&on)?;
+                    if let (Some(s), Some(c)) = (sens.as_mut(), c) {
+                        let f_new = td.topo.f.mul_vec(&zr);
+                        let cf = dot(&c, &f_old);
+                        if cf.abs() > 1e-300 {
+                            // S += (f+ - f-) (c^T S) / (c^T f-)
+                            let cs: Vec<f64> = (0..nx).map(|j| (0..nz).map(|i| c[i] * s.at(i, j)).sum()).collect();
+                            for i in 0..nz {
+                                let d = (f_new[i] - f_old[i]) / cf;
+                                if d != 0.0 {
+                                    for j in 0..nx {
+                                        s.add_at(i, j, d * cs[j]);
+                                    }
+                                }
+                            }
+                        }
+                    }
+                    z = zr;
+                    td = self.settle(&mut on, &z, t, &mut events)?;
+                    n_ev += 1;
+                    if n_ev > self.max_events {
+                        return Err(fail(
+                            "too many switching events",
+                            "the devices chatter; add source or DC inductance, or check the load values",
+                        ));
+                    }
+                }
+                _ => {
+                    if spec.record {
+                        pieces.push(Piece {
+                            t_s: t,
+                            dt_s: dt,
+                            key: Self::key(&on),
+                            z: z.clone(),
+                        });
+                    }
+                    if let Some(s) = sens.as_mut() {
+                        *s = e_step.mul(s);
+                    }
+                    t = t_next;
+                    z = z_end;
+                    // Keep the oscillator exact (no drift over many steps).
+                    self.circuit.osc_at(&mut z, t);
+                    if at_grid {
+                        grid_index += 1;
+                    }
+                    if contactor_now {
+                        self.close_contactors(&mut on, t, &mut events);
+                        contactor_done = true;
+                    }
+                    // Gate openings and settling at stops.
+                    td = self.settle(&mut on, &z, t, &mut events)?;
+                    if spec.record && at_grid {
+                        knots.push((t, Self::key(&on), z.clone()));
+                    }
+                }
+            }
+            if z.iter().any(|v| !v.is_finite()) {
+                return Err(fail(
+                    "the solution is not finite",
+                    "the circuit values are outside what this solver handles",
+                ));
+            }
+        }
+        Ok(RunOut {
+            x_end: z[..nx].to_vec(),
+            on_end: on,
+            monodromy: sens.map(|s| {
+                let mut m = Mat::zeros(nx, nx);
+                for i in 0..nx {
+                    for j in 0..nx {
+                        m.set(i, j, s.at(i, j));
+                    }
+                }
+                m
+            }),
+            pieces,
+            events,
+            knots,
+        })
+    }
+
+    fn close_contactors(&mut self, on: &mut [bool], t_s: f64, events: &mut Vec<Event>) {
+        for (k, &e) in self.circuit.switches.iter().enumerate() {
+            if let Element::Switch {
+                kind: SwitchKind::Contactor,
+                ..
+            } = self.circuit.elements[e]
+            {
+                if !on[k] {
+                    on[k] = true;
+                    events.push(Event { t_s, switch: k, on: true });
+                }
+            }
+        }
+    }
+
+    /// Switch states with every contactor closed and every device off.
+    pub fn contactors_closed(&self) -> Vec<bool> {
+        self.circuit
+            .switches
+            .iter()
+            .map(|&e| matches!(self.circuit.elements[e], Element::Switch { kind: SwitchKind::Contactor, .. }))
+            .collect()
+    }
+
+    /// Number of topologies built so far.
+    pub fn cache_len(&self) -> usize {
+        self.cache.len()
+    }
+
+    /// Locate the first zero of `c . expm(F tau) z` on (0, dt], given that it
+    /// is on the far side at `dt`.  Safeguarded Newton with bisection; returns
+    /// the time just past the root (on the far side, within 1e-12 of a period)
+    /// and the state there.
+    fn locate(&mut self, f: &Mat, c: &[f64], z: &[f64], z_end: &[f64], dt: f64, on: bool) -> Result<(f64, Vec<f64>), SolveError> {
+        // g > 0 on the side the switch is happy with.
+        let sgn = if on { 1.0 } else { -1.0 };
+        let g0 = sgn * dot(c, z);
+        if g0 <= 0.0 {
+            return Ok((0.0, z.to_vec()));
+        }
+        let g_end = sgn * dot(c, z_end);
+        let fc: Vec<f64> = (0..f.cols).map(|j| (0..f.rows).map(|i| c[i] * f.at(i, j)).sum()).collect();
+        let tol = 1e-12 * self.period_s;
+        let (mut lo, mut hi) = (0.0, dt);
+        let mut best: Option<(f64, Vec<f64>)> = None;
+        let mut tau = if g_end < 0.0 { dt * g0 / (g0 - g_end) } else { 0.5 * dt };
+        for _ in 0..100 {
+            if hi - lo <= tol {
+                break;
+            }
+            let zt = self.expm_scaled(f, tau)?.mul_vec(z);
+            let g = sgn * dot(c, &zt);
+            let dg = sgn * dot(&fc, &zt);
+            if g > 0.0 {
+                lo = tau;
+            } else {
+                hi = tau;
+                best = Some((tau, zt));
+            }
+            if hi - lo <= tol {
+                break;
+            }
+            let mut next = if dg != 0.0 { tau - g / dg } else { f64::NAN };
+            // Nudge across the root so the bracket closes from both sides.
+            next += if g > 0.0 { 0.5 * tol } else { -0.5 * tol };
+            if !(next > lo && next < hi) {
+                next = 0.5 * (lo + hi);
+            }
+            tau = next;
+        }
+        match best {
+            Some((t, zt)) if t == hi => Ok((hi, zt)),
+            _ => {
+                let zt = self.expm_scaled(f, hi)?.mul_vec(z);
+                Ok((hi, zt))
+            }
+        }
+    }
+
+    /// Evaluate the state at Gauss nodes of a recorded piece.
+    pub fn gauss_states(&mut self, p: &Piece) -> Result<Vec<(f64, f64, Vec<f64>)>, SolveError> {
+        let td = self.topo_key(p.key)?;
+        let full = (p.dt_s - self.h_s).abs() < 1e-9 * self.h_s;
+        let mut out = Vec::with_capacity(4);
+        for j in 0..4 {
+            let tau = p.dt_s * (1.0 + GL_X[j]) / 2.0;
+            let zt = if full {
+                td.gl[j].mul_vec(&p.z)
+            } else {
+                self.expm_scaled(&td.topo.f, tau)?.mul_vec(&p.z)
+            };
+            out.push((p.t_s + tau, GL_W[j] * p.dt_s / 2.0, zt));
+        }
+        Ok(out)
+    }
+}
+
+pub fn dot(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| x * y).sum()
+}
+
+/// Periodic steady state: the initial state `x0`, the initial switch states,
+/// and the Newton history.
+pub struct SteadyState {
+    pub x0: Vec<f64>,
+    pub on0: Vec<bool>,
+    pub iterations: usize,
+    pub residual: f64,
+}
+
+/// Scale of each state for convergence tests.
+pub fn solve_periodic(
+    eng: &mut Engine,
+    x_guess: &[f64],
+    x_scale: &[f64],
+    warmup_periods: usize,
+    max_iter: usize,
+) -> Result<SteadyState, SolveError> {
+    let t_per = eng.period_s;
+    let mut x0 = x_guess.to_vec();
+    let mut on0 = eng.contactors_closed();
+    let plain = RunSpec {
+        t0_s: 0.0,
+        t1_s: t_per,
+        record: false,
+        sensitivity: false,
+        contactor_close: None,
+    };
+    for _ in 0..warmup_periods {
+        let r = eng.run(&x0, &on0, &plain)?;
+        x0 = r.x_end;
+        on0 = r.on_end;
+    }
+    solve_periodic_from(eng, &x0, &on0, x_scale, max_iter)
+}
+
+/// Newton shooting from a given initial state and switch states.
+pub fn solve_periodic_from(eng: &mut Engine, x_start: &[f64], on_start: &[bool], x_scale: &[f64], max_iter: usize) -> Result<SteadyState, SolveError> {
+    let nx = x_start.len();
+    let mut x0 = x_start.to_vec();
+    let mut on0 = on_start.to_vec();
+    let with_sens = RunSpec {
+        t0_s: 0.0,
+        t1_s: eng.period_s,
+        record: false,
+        sensitivity: true,
+        contactor_close: None,
+    };
+    let norm = |r: &[f64]| -> f64 { r.iter().zip(x_scale).map(|(v, s)| (v / s).abs()).fold(0.0, f64::max) };
+    let mut run = eng.run(&x0, &on0, &with_sens)?;
+    let mut res: Vec<f64> = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
+    let mut rn = norm(&res);
+    for it in 0..max_iter {
+        if rn < 1e-10 {
+            return Ok(SteadyState {
+                x0,
+                on0,
+                iterations: it,
+                residual: rn,
+            });
+        }
+        let m = run.monodromy.take().unwrap_or_else(|| Mat::identity(nx));
+        let mut a = Mat::identity(nx);
+        for i in 0..nx {
+            for j in 0..nx {
+                a.add_at(i, j, -m.at(i, j));
+            }
+        }
+        let delta = match Lu::new(&a) {
+            Some(lu) => lu.solve(&res),
+            None => res.clone(),
+        };
+        // Damped update: accept the largest step (1, 1/2, ...) that reduces the residual.
+        let mut lambda = 1.0;
+        let mut accepted = None;
+        for _ in 0..8 {
+            let xt: Vec<f64> = x0.iter().zip(&delta).map(|(x, d)| x + lambda * d).collect();
+            let on_start = run.on_end.clone();
+            if let Ok(rt) = eng.run(&xt, &on_start, &with_sens) {
+                let rest: Vec<f64> = rt.x_end.iter().zip(&xt).map(|(a, b)| a - b).collect();
+                let rnt = norm(&rest);
+                if rnt < rn || lambda < 0.02 {
+                    accepted = Some((xt, on_start, rt, rest, rnt));
+                    break;
+                }
+            }
+            lambda *= 0.5;
+        }
+        match accepted {
+            Some((xt, ot, rt, rest, rnt)) => {
+                x0 = xt;
+                on0 = ot;
+                run = rt;
+                res = rest;
+                rn = rnt;
+            }
+            None => {
+                // Fall back to one plain period.
+                x0 = run.x_end.clone();
+                on0 = run.on_end.clone();
+                run = eng.run(&x0, &on0, &with_sens)?;
+                res = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
+                rn = norm(&res);
+            }
+        }
+    }
+    if rn < 1e-7 {
+        return Ok(SteadyState {
+            x0,
+            on0,
+            iterations: max_iter,
+            residual: rn,
+        });
+    }
+    Err(fail(
+        "the periodic steady state did not converge",
+        "the circuit may not have a periodic solution at the supply frequency (for example a resonance with little damping); add damping resistance or change the load",
+    ))
+}

@@ -1,0 +1,41 @@
+//! The simulator against the textbook limits (Mohan, Undeland, Robbins,
+//! *Power Electronics*, 3rd ed., Wiley 2003, ch. 5 and 6).
+
+use rectifield::params::derive;
+use rectifield::scenario::{BridgeKind, DcLoad, LineReactor, Scenario, SourceImpedance};
+use rectifield::sim::simulate;
+
+fn rl_case(kind: BridgeKind, alpha_deg: f64, l_s_h: f64) -> Scenario {
+    let mut s = Scenario::default();
+    s.supply.v_ll_rms_v = 460.0;
+    s.supply.f_hz = 60.0;
+    s.source.impedance = SourceImpedance::Direct { r_ohm: 0.0, l_h: l_s_h };
+    s.source.reactor = LineReactor::None;
+    s.bridge.kind = kind;
+    s.bridge.alpha_deg = alpha_deg;
+    s.dc.cap_f = 0.0;
+    // A large DC inductance makes the current nearly constant: L/R = 50 s.
+    s.dc.load = DcLoad::Rle { r_ohm: 4.0, l_h: 200.0, e_v: 0.0 };
+    s.analysis.rated_power_w = 60e3;
+    s
+}
+
+#[test]
+fn stiff_source_diode_bridge_gives_vdo() {
+    let s = rl_case(BridgeKind::SixPulseDiode, 0.0, 0.0);
+    let d = derive(&s).unwrap();
+    let r = simulate(&s, &d).unwrap();
+    let vdc = r.signals[r.roles.v_bridge].mean;
+    let id = r.signals[r.roles.i_dc].mean;
+    let vdo = 3.0 * 2f64.sqrt() / std::f64::consts::PI * 460.0;
+    println!("vdc {vdc} vdo {vdo} id {id} iters {} events {}", r.newton_iterations, r.events.len());
+    assert!((vdc / vdo - 1.0).abs() < 1e-3, "{vdc} vs {vdo}");
+    let ia = &r.signals[r.roles.line_i[0]];
+    // Line RMS = sqrt(2/3) Id (Mohan 3rd ed., sec. 5-6).
+    assert!((ia.rms / ((2.0f64 / 3.0).sqrt() * id) - 1.0).abs() < 1e-3, "{} vs {}", ia.rms, id);
+    let i1 = ia.harmonics[0].rms;
+    for h in [5usize, 7, 11, 13, 17, 19, 23, 25] {
+        let ih = ia.harmonics[h - 1].rms;
+        assert!((ih * h as f64 / i1 - 1.0).abs() < 1e-3, "h{h}: {} vs {}", ih, i1 / h as f64);
+    }
+}
