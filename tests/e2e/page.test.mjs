@@ -211,6 +211,35 @@ for (const b of BROWSERS) {
       for (const h of orders) assert.ok(h % 12 === 1 || h % 12 === 11, `order ${h} is not 12k +- 1`);
     });
 
+    test("a transformer source: short-circuit current from kVA and %Z", async () => {
+      let n = await computed();
+      await page.select("#source_kind", "transformer");
+      await waitRecomputed(n);
+      n = await typeInto("imp_tx_s_kva", "1000");
+      await waitRecomputed(n);
+      n = await typeInto("imp_tx_z_pct", "5");
+      await waitRecomputed(n);
+      // Common practice (per-unit method): I_sc = S / (sqrt3 V_LL z_pu) behind an
+      // infinite bus; the page shows kA.  V_LL is 480 V from the earlier test.
+      const want_ka = 1000e3 / (Math.sqrt(3) * 480 * 0.05) / 1e3;
+      const got = await num("derived.i_sc_a");
+      assert.ok(close(got, want_ka, 1e-4), `I_sc ${got} kA vs ${want_ka}`);
+    });
+
+    test("touch targets are at least 44 px high", async () => {
+      const small = await page.$$eval("#inputs input, #inputs select", (els) =>
+        els
+          .filter((e) => e.offsetParent !== null)
+          .map((e) => [e.id, e.getBoundingClientRect().height])
+          .filter(([, h]) => h < 44)
+      );
+      assert.deepEqual(small, []);
+      const modes = await page.$$eval("#inputs input", (els) =>
+        els.filter((e) => e.getAttribute("inputmode") !== "decimal").map((e) => e.id)
+      );
+      assert.deepEqual(modes, [], "number inputs without inputmode=decimal");
+    });
+
     test("user text is never inserted as markup", async () => {
       await typeInto("v_ll_rms_v", "<b>1</b>");
       await page.waitForSelector('#results[data-state="stale"]');
