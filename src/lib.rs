@@ -4,6 +4,10 @@
 //! panics on bad input.  One scenario goes in ([`scenario::Scenario`]), one
 //! analysis comes out ([`analysis::Analysis`]).
 
+// Index loops over small fixed arrays (phases, matrix rows) read better than
+// iterator chains in numerical code.
+#![allow(clippy::needless_range_loop, clippy::map_entry)]
+
 pub mod analysis;
 pub mod params;
 pub mod report;

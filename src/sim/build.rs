@@ -77,7 +77,14 @@ impl Net {
     }
     /// Series R-L from `a` to a new node (or `a` itself when both are zero).
     /// Returns (end node, element index if any).
-    fn series(&mut self, a: Node, l_h: f64, r_ohm: f64, guess_a: f64, scale_a: f64) -> (Node, Option<usize>) {
+    fn series(
+        &mut self,
+        a: Node,
+        l_h: f64,
+        r_ohm: f64,
+        guess_a: f64,
+        scale_a: f64,
+    ) -> (Node, Option<usize>) {
         if l_h > 0.0 {
             let b = self.node();
             let e = self.push(Element::Inductor { a, b, l_h, r_ohm });
@@ -85,7 +92,11 @@ impl Net {
             (b, Some(e))
         } else if r_ohm > 0.0 {
             let b = self.node();
-            let e = self.push(Element::Conductance { a, b, g_s: 1.0 / r_ohm });
+            let e = self.push(Element::Conductance {
+                a,
+                b,
+                g_s: 1.0 / r_ohm,
+            });
             (b, Some(e))
         } else {
             (a, None)
@@ -94,7 +105,13 @@ impl Net {
 }
 
 /// Supply EMF of phase `k` as (oscillator index, cos coef, sin coef) terms.
-fn phase_wave(s: &Scenario, k: usize, shift_rad: f64, orders: &[u32], scale: f64) -> Vec<(usize, f64, f64)> {
+fn phase_wave(
+    s: &Scenario,
+    k: usize,
+    shift_rad: f64,
+    orders: &[u32],
+    scale: f64,
+) -> Vec<(usize, f64, f64)> {
     let v_ph_peak = s.supply.v_ll_rms_v / 3f64.sqrt() * SQRT_2 * scale;
     let base = -2.0 * PI / 3.0 * k as f64 + shift_rad;
     let mut out = Vec::new();
@@ -136,14 +153,15 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
     let mut probes: Vec<Probe> = Vec::new();
     let mut roles = Roles::default();
     let mut device_names = Vec::new();
-    let add_probe = |probes: &mut Vec<Probe>, name: &str, unit: &'static str, terms: Vec<(Basic, f64)>| {
-        probes.push(Probe {
-            name: name.into(),
-            unit,
-            terms,
-        });
-        probes.len() - 1
-    };
+    let add_probe =
+        |probes: &mut Vec<Probe>, name: &str, unit: &'static str, terms: Vec<(Basic, f64)>| {
+            probes.push(Probe {
+                name: name.into(),
+                unit,
+                terms,
+            });
+            probes.len() - 1
+        };
     let r_on = if s.bridge.r_slope_ohm > 0.0 {
         s.bridge.r_slope_ohm
     } else {
@@ -153,10 +171,20 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
     let alpha = crate::analysis::alpha_rad(s);
     let gate_w = s.bridge.gate_width_deg.clamp(1.0, 179.0).to_radians() / w;
     let controlled = s.bridge.kind.is_controlled();
-    let three_pulse = matches!(s.bridge.kind, BridgeKind::ThreePulseDiode | BridgeKind::ThreePulseThyristor);
-    let twelve = matches!(s.bridge.kind, BridgeKind::TwelvePulseSeries | BridgeKind::TwelvePulseParallel);
+    let three_pulse = matches!(
+        s.bridge.kind,
+        BridgeKind::ThreePulseDiode | BridgeKind::ThreePulseThyristor
+    );
+    let twelve = matches!(
+        s.bridge.kind,
+        BridgeKind::TwelvePulseSeries | BridgeKind::TwelvePulseParallel
+    );
     let names = ["a", "b", "c"];
-    let id_guess = i_base;
+    // Inductor currents start at zero: a consistent state whatever the
+    // conduction pattern (inductor cut sets through blocking devices would
+    // otherwise start off the slow manifold).  Newton brings them up.
+    let id_guess = 0.0 * i_base;
+    let has_cap = s.dc.cap_f > 0.0;
 
     // One three-phase set: EMFs behind source impedance and reactor.  Returns
     // the bridge AC nodes and the source elements.
@@ -165,7 +193,12 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         src: [usize; 3],
         pcc: [Node; 3],
     }
-    let make_set = |net: &mut Net, neutral: Node, shift: f64, set_name: &str, probes: &mut Vec<Probe>| -> SetOut {
+    let make_set = |net: &mut Net,
+                    neutral: Node,
+                    shift: f64,
+                    line_guess: [f64; 3],
+                    probes: &mut Vec<Probe>|
+     -> SetOut {
         let mut bridge_nodes = [0; 3];
         let mut src = [0; 3];
         let mut pcc = [0; 3];
@@ -176,7 +209,11 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
                 .iter()
                 .flat_map(|&(i, c, sn_)| [(1 + 2 * i, c), (2 + 2 * i, sn_)])
                 .collect();
-            src[k] = net.push(Element::VoltageSource { a: sn, b: neutral, wave });
+            src[k] = net.push(Element::VoltageSource {
+                a: sn,
+                b: neutral,
+                wave,
+            });
             if s.supply.phase_open[k] {
                 // Lost phase: the line is open right at the source.
                 let b = net.node();
@@ -184,13 +221,24 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
                 pcc[k] = b;
                 continue;
             }
-            let (x, _) = net.series(sn, d.l_source_h, d.r_source_ohm.max(if d.l_source_h > 0.0 { 0.0 } else { net.r_min }), 0.0, id_guess);
+            let (x, _) = net.series(
+                sn,
+                d.l_source_h,
+                d.r_source_ohm
+                    .max(if d.l_source_h > 0.0 { 0.0 } else { net.r_min }),
+                line_guess[k],
+                id_guess,
+            );
             pcc[k] = x;
-            let (b, _) = net.series(x, d.l_reactor_h, d.r_reactor_ohm, 0.0, id_guess);
+            let (b, _) = net.series(x, d.l_reactor_h, d.r_reactor_ohm, line_guess[k], id_guess);
             bridge_nodes[k] = b;
-            let _ = (set_name, &probes);
+            let _ = &probes;
         }
-        SetOut { bridge_nodes, src, pcc }
+        SetOut {
+            bridge_nodes,
+            src,
+            pcc,
+        }
     };
 
     let fire = |k_nat_deg: f64| -> SwitchKind {
@@ -205,7 +253,13 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
     };
     let open_dev = s.bridge.open_device;
     let mut dev_count = 0usize;
-    let mut add_dev = |net: &mut Net, a: Node, b: Node, kind: SwitchKind, name: String, device_names: &mut Vec<String>| -> usize {
+    let mut add_dev = |net: &mut Net,
+                       a: Node,
+                       b: Node,
+                       kind: SwitchKind,
+                       name: String,
+                       device_names: &mut Vec<String>|
+     -> usize {
         let open = open_dev == Some(dev_count);
         dev_count += 1;
         device_names.push(name);
@@ -215,7 +269,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             kind,
             v_th_v: v_th,
             r_on_ohm: r_on,
-        open,
+            open,
         })
     };
 
@@ -224,13 +278,25 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
     let mut dev_elems: Vec<usize> = Vec::new();
     let (p, n);
     if three_pulse {
-        let set = make_set(&mut net, 0, 0.0, "", &mut probes);
+        let g = if has_cap {
+            [0.0; 3]
+        } else {
+            [id_guess, 0.0, 0.0]
+        };
+        let set = make_set(&mut net, 0, 0.0, g, &mut probes);
         p = net.node();
         n = 0;
         for k in 0..3 {
             let nat = [-60.0, 60.0, 180.0][k];
             let kind = fire(nat);
-            let e = add_dev(&mut net, set.bridge_nodes[k], p, kind, format!("{}+", names[k]), &mut device_names);
+            let e = add_dev(
+                &mut net,
+                set.bridge_nodes[k],
+                p,
+                kind,
+                format!("{}+", names[k]),
+                &mut device_names,
+            );
             dev_elems.push(e);
         }
         sets.push(set);
@@ -240,7 +306,22 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         for bi in 0..n_bridges {
             let shift = if bi == 1 { -PI / 6.0 } else { 0.0 };
             let neutral = if bi == 0 { 0 } else { net.node() };
-            let set = make_set(&mut net, neutral, shift, "", &mut probes);
+            let share = if s.bridge.kind == BridgeKind::TwelvePulseParallel {
+                0.5
+            } else {
+                1.0
+            };
+            let pattern = if bi == 0 {
+                [1.0, -0.5, -0.5]
+            } else {
+                [1.0, -1.0, 0.0]
+            };
+            let g = if has_cap {
+                [0.0; 3]
+            } else {
+                pattern.map(|p| p * id_guess * share)
+            };
+            let set = make_set(&mut net, neutral, shift, g, &mut probes);
             let bp = net.node();
             let bn = net.node();
             let shift_deg = if bi == 1 { 30.0 } else { 0.0 };
@@ -249,13 +330,27 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             for k in 0..3 {
                 let nat = [-60.0, 60.0, 180.0][k] + shift_deg;
                 let kind = fire(nat);
-                let e = add_dev(&mut net, set.bridge_nodes[k], bp, kind, format!("{}{}+", names[k], suffix), &mut device_names);
+                let e = add_dev(
+                    &mut net,
+                    set.bridge_nodes[k],
+                    bp,
+                    kind,
+                    format!("{}{}+", names[k], suffix),
+                    &mut device_names,
+                );
                 dev_elems.push(e);
             }
             for k in 0..3 {
                 let nat = [120.0, 240.0, 0.0][k] + shift_deg;
                 let kind = fire(nat);
-                let e = add_dev(&mut net, bn, set.bridge_nodes[k], kind, format!("{}{}-", names[k], suffix), &mut device_names);
+                let e = add_dev(
+                    &mut net,
+                    bn,
+                    set.bridge_nodes[k],
+                    kind,
+                    format!("{}{}-", names[k], suffix),
+                    &mut device_names,
+                );
                 dev_elems.push(e);
             }
             rails.push((bp, bn));
@@ -376,7 +471,11 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             (e, 1.0)
         }
         DcLoad::ConstantCurrent { i_a } => {
-            let e = net.push(Element::CurrentSource { a: q, b: n, i_a: *i_a });
+            let e = net.push(Element::CurrentSource {
+                a: q,
+                b: n,
+                i_a: *i_a,
+            });
             // Keeps the node defined when every device blocks.
             net.push(Element::Conductance {
                 a: q,
@@ -388,7 +487,11 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         DcLoad::ConstantPower { p_w } => {
             // Linearised about the mean bus voltage V0 (updated by the caller):
             // i = 2 P / V0 - (P / V0^2) v.
-            let v0 = if v_bus_guess > 0.0 { v_bus_guess } else { 1.35 * v_ll };
+            let v0 = if v_bus_guess > 0.0 {
+                v_bus_guess
+            } else {
+                1.35 * v_ll
+            };
             let e = net.push(Element::CurrentSource {
                 a: q,
                 b: n,
@@ -416,7 +519,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
     for (pos, &e) in circuit.state_elems.iter().enumerate() {
         if let Some(g) = net.guess.iter().find(|g| g.0 == e) {
             x_guess[pos] = g.1;
-            x_scale[pos] = g.2.max(1e-9);
+            x_scale[pos] = g.2.max(i_base);
         }
         if let Element::Capacitor { .. } = circuit.elements[e] {
             x_scale[pos] = v_base;
@@ -425,7 +528,12 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
 
     // Probes.
     for k in 0..3 {
-        roles.phase_v[k] = add_probe(&mut probes, &format!("v_{}n", names[k]), "V", vec![(Basic::Node(node_a(&circuit, sets[0].src[k])), 1.0)]);
+        roles.phase_v[k] = add_probe(
+            &mut probes,
+            &format!("v_{}n", names[k]),
+            "V",
+            vec![(Basic::Node(node_a(&circuit, sets[0].src[k])), 1.0)],
+        );
     }
     if twelve {
         // Primary current (referred to the secondary line-to-line voltage):
@@ -446,20 +554,45 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         for (bi, set) in sets.iter().enumerate() {
             let mut arr = [0; 3];
             for k in 0..3 {
-                arr[k] = add_probe(&mut probes, &format!("i_{}{}", names[k], bi + 1), "A", vec![(Basic::Elem(set.src[k]), -1.0)]);
+                arr[k] = add_probe(
+                    &mut probes,
+                    &format!("i_{}{}", names[k], bi + 1),
+                    "A",
+                    vec![(Basic::Elem(set.src[k]), -1.0)],
+                );
             }
             roles.secondary_i.push(arr);
         }
     } else {
         for k in 0..3 {
-            roles.line_i[k] = add_probe(&mut probes, &format!("i_{}", names[k]), "A", vec![(Basic::Elem(sets[0].src[k]), -1.0)]);
+            roles.line_i[k] = add_probe(
+                &mut probes,
+                &format!("i_{}", names[k]),
+                "A",
+                vec![(Basic::Elem(sets[0].src[k]), -1.0)],
+            );
         }
     }
     for k in 0..3 {
-        roles.pcc_v[k] = add_probe(&mut probes, &format!("v_pcc_{}n", names[k]), "V", vec![(Basic::Node(sets[0].pcc[k]), 1.0)]);
+        roles.pcc_v[k] = add_probe(
+            &mut probes,
+            &format!("v_pcc_{}n", names[k]),
+            "V",
+            vec![(Basic::Node(sets[0].pcc[k]), 1.0)],
+        );
     }
-    roles.v_dc = add_probe(&mut probes, "v_dc", "V", vec![(Basic::Node(q), 1.0), (Basic::Node(n), -1.0)]);
-    roles.v_bridge = add_probe(&mut probes, "v_bridge", "V", vec![(Basic::Node(p), 1.0), (Basic::Node(n), -1.0)]);
+    roles.v_dc = add_probe(
+        &mut probes,
+        "v_dc",
+        "V",
+        vec![(Basic::Node(q), 1.0), (Basic::Node(n), -1.0)],
+    );
+    roles.v_bridge = add_probe(
+        &mut probes,
+        "v_bridge",
+        "V",
+        vec![(Basic::Node(p), 1.0), (Basic::Node(n), -1.0)],
+    );
     // DC current out of the bridge: sum of the upper devices' currents (first bridge for 12-pulse series).
     let upper: Vec<(Basic, f64)> = if three_pulse {
         dev_elems.iter().map(|&e| (Basic::Elem(e), 1.0)).collect()
@@ -471,11 +604,17 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             .map(|(_, &e)| (Basic::Elem(e), 1.0))
             .collect()
     } else {
-        dev_elems.iter().take(3).map(|&e| (Basic::Elem(e), 1.0)).collect()
+        dev_elems
+            .iter()
+            .take(3)
+            .map(|&e| (Basic::Elem(e), 1.0))
+            .collect()
     };
     roles.i_dc = add_probe(&mut probes, "i_dc", "A", upper);
     roles.i_cap = i_cap.map(|e| add_probe(&mut probes, "i_cap", "A", vec![(Basic::Elem(e), 1.0)]));
-    roles.i_choke = choke.filter(|&e| matches!(circuit.elements[e], Element::Inductor { .. })).map(|e| add_probe(&mut probes, "i_choke", "A", vec![(Basic::Elem(e), 1.0)]));
+    roles.i_choke = choke
+        .filter(|&e| matches!(circuit.elements[e], Element::Inductor { .. }))
+        .map(|e| add_probe(&mut probes, "i_choke", "A", vec![(Basic::Elem(e), 1.0)]));
     let load_terms = match cpl {
         Some((e, g)) => vec![(Basic::Elem(e), 1.0), (Basic::Elem(g), 1.0)],
         None => vec![(Basic::Elem(load_elem), load_sign)],
@@ -486,8 +625,18 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             Element::Switch { a, b, .. } => (a, b),
             _ => (0, 0),
         };
-        let ip = add_probe(&mut probes, &format!("i_{}", device_names[i]), "A", vec![(Basic::Elem(e), 1.0)]);
-        let vp = add_probe(&mut probes, &format!("v_{}", device_names[i]), "V", vec![(Basic::Node(a), 1.0), (Basic::Node(b), -1.0)]);
+        let ip = add_probe(
+            &mut probes,
+            &format!("i_{}", device_names[i]),
+            "A",
+            vec![(Basic::Elem(e), 1.0)],
+        );
+        let vp = add_probe(
+            &mut probes,
+            &format!("v_{}", device_names[i]),
+            "V",
+            vec![(Basic::Node(a), 1.0), (Basic::Node(b), -1.0)],
+        );
         roles.devices.push((ip, vp));
     }
     Built {

@@ -43,12 +43,21 @@ pub enum Element {
     /// Conductance `g_s` between `a` and `b` (may be negative).
     Conductance { a: Node, b: Node, g_s: f64 },
     /// Inductor with series resistance; state = current from `a` to `b`.
-    Inductor { a: Node, b: Node, l_h: f64, r_ohm: f64 },
+    Inductor {
+        a: Node,
+        b: Node,
+        l_h: f64,
+        r_ohm: f64,
+    },
     /// Capacitor; state = `v_a - v_b`.
     Capacitor { a: Node, b: Node, c_f: f64 },
     /// Voltage source `v_a - v_b = sum of coef x term`, terms in source space:
     /// 0 = the constant 1, `1 + 2i` = cos of oscillator i, `2 + 2i` = its sin.
-    VoltageSource { a: Node, b: Node, wave: Vec<(usize, f64)> },
+    VoltageSource {
+        a: Node,
+        b: Node,
+        wave: Vec<(usize, f64)>,
+    },
     /// Constant current `i_a` leaving node `a` through the source into node `b`.
     CurrentSource { a: Node, b: Node, i_a: f64 },
     /// A switch from anode `a` to cathode `b`.
@@ -90,7 +99,13 @@ pub struct Topology {
 }
 
 impl Circuit {
-    pub fn new(n_nodes: usize, elements: Vec<Element>, osc_omega: Vec<f64>, g_off_s: f64, g_min_s: f64) -> Circuit {
+    pub fn new(
+        n_nodes: usize,
+        elements: Vec<Element>,
+        osc_omega: Vec<f64>,
+        g_off_s: f64,
+        g_min_s: f64,
+    ) -> Circuit {
         let switches = elements
             .iter()
             .enumerate()
@@ -162,11 +177,25 @@ impl Circuit {
     pub fn topology(&self, on: &[bool]) -> Option<Topology> {
         let nz = self.n_z();
         let nv = self.n_nodes - 1; // unknown node voltages (node 0 is reference)
-        // Voltage-constraint elements get a current unknown.
+                                   // Voltage-constraint elements get a current unknown.
+                                   // Voltage-constraint elements (capacitors, sources, conducting switches)
+                                   // get a current unknown.  A conducting switch is `v_a - v_b - r_on j = v_th`:
+                                   // its current comes out of the solve directly, accurate even when
+                                   // `r_on` is tiny (a difference of node voltages would not be).
         let mut vs_index = vec![usize::MAX; self.elements.len()];
         let mut n_vs = 0;
+        let mut sw_k = 0;
         for (i, e) in self.elements.iter().enumerate() {
-            if matches!(e, Element::Capacitor { .. } | Element::VoltageSource { .. }) {
+            let is_vs = match e {
+                Element::Capacitor { .. } | Element::VoltageSource { .. } => true,
+                Element::Switch { open, .. } => {
+                    let r = on[sw_k] && !open;
+                    sw_k += 1;
+                    r
+                }
+                _ => false,
+            };
+            if is_vs {
                 vs_index[i] = nv + n_vs;
                 n_vs += 1;
             }
@@ -220,11 +249,17 @@ impl Circuit {
                     let is_on = on[sw_k] && !open;
                     sw_k += 1;
                     if is_on {
-                        let g = 1.0 / r_on_ohm;
-                        stamp_g(&mut m, *a, *b, g);
-                        // i_ab = g (v_ab - v_th): the -g v_th part is a source from b to a.
-                        inject(&mut rhs, *a, ci, g * v_th_v);
-                        inject(&mut rhs, *b, ci, -g * v_th_v);
+                        let j = vs_index[i];
+                        if *a > 0 {
+                            m.add_at(a - 1, j, 1.0);
+                            m.add_at(j, a - 1, 1.0);
+                        }
+                        if *b > 0 {
+                            m.add_at(b - 1, j, -1.0);
+                            m.add_at(j, b - 1, -1.0);
+                        }
+                        m.add_at(j, j, -r_on_ohm);
+                        rhs.add_at(j, ci, *v_th_v);
                     } else {
                         stamp_g(&mut m, *a, *b, self.g_off_s);
                     }
@@ -314,12 +349,16 @@ impl Circuit {
                 } => {
                     let is_on = on[sw_k] && !open;
                     sw_k += 1;
-                    let g = if is_on { 1.0 / r_on_ohm } else { self.g_off_s };
-                    for c in 0..nz {
-                        elem_i.set(i, c, g * vdiff(*a, *b, c));
-                    }
+                    let _ = (v_th_v, r_on_ohm);
                     if is_on {
-                        elem_i.add_at(i, ci, -g * v_th_v);
+                        let j = vs_index[i];
+                        for c in 0..nz {
+                            elem_i.set(i, c, sol.at(j, c));
+                        }
+                    } else {
+                        for c in 0..nz {
+                            elem_i.set(i, c, self.g_off_s * vdiff(*a, *b, c));
+                        }
                     }
                 }
             }

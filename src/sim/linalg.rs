@@ -95,7 +95,12 @@ impl Mat {
         Mat {
             rows: self.rows,
             cols: self.cols,
-            data: self.data.iter().zip(&other.data).map(|(a, b)| a + b).collect(),
+            data: self
+                .data
+                .iter()
+                .zip(&other.data)
+                .map(|(a, b)| a + b)
+                .collect(),
         }
     }
 
@@ -142,7 +147,7 @@ impl Lu {
                     p = i;
                 }
             }
-            if !(best > scale * 1e-300) || !best.is_finite() {
+            if best.is_nan() || best <= scale * 1e-300 || !best.is_finite() {
                 return None;
             }
             if p != k {
@@ -236,7 +241,7 @@ pub fn expm(a: &Mat) -> Option<Mat> {
     // Low-degree Padé for small norms (theta values from Higham 2005, Table 2.3).
     let low: [(usize, f64); 4] = [
         (3, 1.495585217958292e-2),
-        (5, 2.539398330063230e-1),
+        (5, 2.539_398_330_063_23e-1),
         (7, 9.504178996162932e-1),
         (9, 2.097847961257068e0),
     ];
@@ -288,7 +293,9 @@ fn pade_low(a: &Mat, m: usize, ident: &Mat) -> Option<Mat> {
     let c: &[f64] = match m {
         3 => &[120.0, 60.0, 12.0, 1.0],
         5 => &[30240.0, 15120.0, 3360.0, 420.0, 30.0, 1.0],
-        7 => &[17297280.0, 8648640.0, 1995840.0, 277200.0, 25200.0, 1512.0, 56.0, 1.0],
+        7 => &[
+            17297280.0, 8648640.0, 1995840.0, 277200.0, 25200.0, 1512.0, 56.0, 1.0,
+        ],
         _ => &[
             17643225600.0,
             8821612800.0,
@@ -382,7 +389,11 @@ mod tests {
         };
         let e = expm(&m.scale(0.01)).unwrap();
         let exact = b * ((c * 0.01).exp() - (a * 0.01).exp()) / (c - a);
-        assert!((e.at(1, 0) - exact).abs() < 1e-9, "{} vs {exact}", e.at(1, 0));
+        assert!(
+            (e.at(1, 0) - exact).abs() < 1e-9,
+            "{} vs {exact}",
+            e.at(1, 0)
+        );
         assert!((e.at(0, 0) - (-0.01f64).exp()).abs() < 1e-12);
     }
 

@@ -14,6 +14,12 @@ use serde::{Deserialize, Serialize};
 use solver::{ContactorRule, Engine, RunSpec, SolveError};
 use std::f64::consts::PI;
 
+/// Switching-decision tolerance relative to the rated current and peak voltage.
+/// It must exceed the leakage of blocking devices (`g_off`, about 2e-6 of the
+/// rated current, see `build`), or devices chatter at leakage level.  Event
+/// times are located at the exact zero crossing whatever this value.
+pub const TOL_REL: f64 = 2e-5;
+
 /// One harmonic of a signal.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct Harmonic {
@@ -146,13 +152,18 @@ fn err(reason: &str, hint: &str) -> SolveError {
 
 /// Solve the periodic steady state (with the constant-power load's outer
 /// loop) and return the engine positioned at the solution.
-fn steady(built: &mut Built, s: &Scenario, cfg: &SimConfig, period: f64) -> Result<(Engine, solver::SteadyState, usize), SolveError> {
+fn steady(
+    built: &mut Built,
+    s: &Scenario,
+    cfg: &SimConfig,
+    period: f64,
+) -> Result<(Engine, solver::SteadyState, usize), SolveError> {
     let mut eng = Engine::new(
         built.circuit.clone(),
         period,
         cfg.grid_points,
-        1e-8 * built.i_base_a,
-        1e-8 * built.v_base_v,
+        TOL_REL * built.i_base_a,
+        TOL_REL * built.v_base_v,
     );
     // The precharge bypass is closed in steady state.
     let x_guess = built.x_guess.clone();
@@ -163,7 +174,7 @@ fn steady(built: &mut Built, s: &Scenario, cfg: &SimConfig, period: f64) -> Resu
         for _ in 0..30 {
             outer += 1;
             let mean_v = mean_of(&mut eng, built, built.roles.v_dc, &st)?;
-            if !(mean_v > 0.0) {
+            if mean_v.is_nan() || mean_v <= 0.0 {
                 return Err(err(
                     "the bus collapses under the constant-power load",
                     "the supply cannot deliver this power through its impedance; reduce the power or the impedance",
@@ -193,7 +204,12 @@ fn steady(built: &mut Built, s: &Scenario, cfg: &SimConfig, period: f64) -> Resu
     Ok((eng, st, outer))
 }
 
-fn mean_of(eng: &mut Engine, built: &Built, probe: usize, st: &solver::SteadyState) -> Result<f64, SolveError> {
+fn mean_of(
+    eng: &mut Engine,
+    built: &Built,
+    probe: usize,
+    st: &solver::SteadyState,
+) -> Result<f64, SolveError> {
     let run = eng.run(
         &st.x0,
         &st.on0,
@@ -258,12 +274,17 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
     let mut p_phase = [0.0; 3];
     let mut p_load = 0.0;
     let w = 2.0 * PI / period;
-    let mut rows_cache: std::collections::HashMap<u64, Vec<Vec<f64>>> = std::collections::HashMap::new();
+    let mut rows_cache: std::collections::HashMap<u64, Vec<Vec<f64>>> =
+        std::collections::HashMap::new();
     let mut vals = vec![0.0; n_probe];
     for p in &run.pieces {
         if !rows_cache.contains_key(&p.key) {
             let td = eng.topo_key(p.key)?;
-            let rows: Vec<Vec<f64>> = built.probes.iter().map(|pr| probe_row(pr, &td.topo)).collect();
+            let rows: Vec<Vec<f64>> = built
+                .probes
+                .iter()
+                .map(|pr| probe_row(pr, &td.topo))
+                .collect();
             rows_cache.insert(p.key, rows);
         }
         let rows = &rows_cache[&p.key];
@@ -304,15 +325,27 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
     }
     let grid_t: Vec<f64> = run.knots.iter().map(|k| k.0).collect();
     let mut signals = Vec::with_capacity(n_probe);
-    let mut knot_rows: std::collections::HashMap<u64, Vec<Vec<f64>>> = std::collections::HashMap::new();
+    let mut knot_rows: std::collections::HashMap<u64, Vec<Vec<f64>>> =
+        std::collections::HashMap::new();
     for k in &run.knots {
         if !knot_rows.contains_key(&k.1) {
             let td = eng.topo_key(k.1)?;
-            knot_rows.insert(k.1, built.probes.iter().map(|pr| probe_row(pr, &td.topo)).collect());
+            knot_rows.insert(
+                k.1,
+                built
+                    .probes
+                    .iter()
+                    .map(|pr| probe_row(pr, &td.topo))
+                    .collect(),
+            );
         }
     }
     for (i, pr) in built.probes.iter().enumerate() {
-        let samples: Vec<f64> = run.knots.iter().map(|k| dot(&knot_rows[&k.1][i], &k.2)).collect();
+        let samples: Vec<f64> = run
+            .knots
+            .iter()
+            .map(|k| dot(&knot_rows[&k.1][i], &k.2))
+            .collect();
         let mean = sum[i] / period;
         let rms = (sum2[i] / period).max(0.0).sqrt();
         let harmonics = match harm_signals.iter().position(|&x| x == i) {
@@ -347,18 +380,32 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
         .iter()
         .map(|e| SwitchEvent {
             t_s: e.t_s,
-            device: built.device_names.get(e.switch).cloned().unwrap_or_else(|| "precharge bypass".into()),
+            device: built
+                .device_names
+                .get(e.switch)
+                .cloned()
+                .unwrap_or_else(|| "precharge bypass".into()),
             on: e.on,
         })
         .collect();
     let mut warnings = Vec::new();
     if let Some(ic) = r.i_choke {
         if signals[ic].min <= 1e-6 * built.i_base_a {
-            warnings.push("discontinuous conduction: the DC choke current falls to zero in each period".into());
+            warnings.push(
+                "discontinuous conduction: the DC choke current falls to zero in each period"
+                    .into(),
+            );
         }
     }
     let transient = if cfg.transient_cycles > 0 {
-        Some(power_up(&built, s, &cfg, period, signals[r.v_dc].mean, &mut warnings)?)
+        Some(power_up(
+            &built,
+            s,
+            &cfg,
+            period,
+            signals[r.v_dc].mean,
+            &mut warnings,
+        )?)
     } else {
         None
     };
@@ -398,17 +445,38 @@ fn eng_topologies(e: &Engine) -> usize {
 
 /// Power-up from a discharged bus: every state zero at t = 0, the precharge
 /// bypass open until its rule closes it.
-fn power_up(built: &Built, s: &Scenario, cfg: &SimConfig, period: f64, v_mean: f64, warnings: &mut Vec<String>) -> Result<Transient, SolveError> {
-    let mut eng = Engine::new(built.circuit.clone(), period, cfg.grid_points.min(720), 1e-8 * built.i_base_a, 1e-8 * built.v_base_v);
+fn power_up(
+    built: &Built,
+    s: &Scenario,
+    cfg: &SimConfig,
+    period: f64,
+    v_mean: f64,
+    warnings: &mut Vec<String>,
+) -> Result<Transient, SolveError> {
+    let mut eng = Engine::new(
+        built.circuit.clone(),
+        period,
+        cfg.grid_points.min(720),
+        TOL_REL * built.i_base_a,
+        TOL_REL * built.v_base_v,
+    );
     let nx = eng.circuit.n_x();
     let on0 = vec![false; eng.circuit.switches.len()];
     let rule = if built.has_contactor {
         let peak = 2f64.sqrt() * s.supply.v_ll_rms_v;
         Some(ContactorRule {
-            at_s: if s.dc.precharge_bypass_s > 0.0 { s.dc.precharge_bypass_s } else { f64::INFINITY },
+            at_s: if s.dc.precharge_bypass_s > 0.0 {
+                s.dc.precharge_bypass_s
+            } else {
+                f64::INFINITY
+            },
             node_a: built.bus_nodes.0,
             node_b: built.bus_nodes.1,
-            level_v: if s.dc.precharge_bypass_pu > 0.0 { s.dc.precharge_bypass_pu * peak } else { f64::INFINITY },
+            level_v: if s.dc.precharge_bypass_pu > 0.0 {
+                s.dc.precharge_bypass_pu * peak
+            } else {
+                f64::INFINITY
+            },
         })
     } else {
         None
@@ -447,16 +515,26 @@ fn power_up(built: &Built, s: &Scenario, cfg: &SimConfig, period: f64, v_mean: f
     // Peaks between grid points: check the Gauss states too.
     for p in &run.pieces {
         let td = eng.topo_key(p.key)?;
-        let rows: Vec<Vec<f64>> = r.line_i.iter().map(|&j| probe_row(&built.probes[j], &td.topo)).collect();
+        let rows: Vec<Vec<f64>> = r
+            .line_i
+            .iter()
+            .map(|&j| probe_row(&built.probes[j], &td.topo))
+            .collect();
         for (_, _, z) in eng.gauss_states(p)? {
             for row in &rows {
                 peak = peak.max(dot(row, &z).abs());
             }
         }
     }
-    let bypass_at_s = run.events.iter().find(|e| built.device_names.get(e.switch).is_none()).map(|e| e.t_s);
+    let bypass_at_s = run
+        .events
+        .iter()
+        .find(|e| built.device_names.get(e.switch).is_none())
+        .map(|e| e.t_s);
     if charge.is_none() {
-        warnings.push("the bus did not reach 90 % of its steady value within the power-up window".into());
+        warnings.push(
+            "the bus did not reach 90 % of its steady value within the power-up window".into(),
+        );
     }
     Ok(Transient {
         t_s,

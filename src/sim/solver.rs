@@ -133,7 +133,13 @@ pub struct Engine {
 }
 
 impl Engine {
-    pub fn new(circuit: Circuit, period_s: f64, steps_per_period: usize, i_tol_a: f64, v_tol_v: f64) -> Engine {
+    pub fn new(
+        circuit: Circuit,
+        period_s: f64,
+        steps_per_period: usize,
+        i_tol_a: f64,
+        v_tol_v: f64,
+    ) -> Engine {
         let mut gate_times: Vec<f64> = circuit
             .switches
             .iter()
@@ -168,7 +174,9 @@ impl Engine {
     }
 
     pub fn on_from_key(&self, key: u64) -> Vec<bool> {
-        (0..self.circuit.switches.len()).map(|i| key & (1 << i) != 0).collect()
+        (0..self.circuit.switches.len())
+            .map(|i| key & (1 << i) != 0)
+            .collect()
     }
 
     /// The cached model of a topology.
@@ -183,12 +191,14 @@ impl Engine {
                 "check for a zero resistance or a capacitor placed directly across a source",
             )
         })?;
-        let step = expm(&topo.f.scale(self.h_s)).ok_or_else(|| fail("state matrix is not finite", "check the element values"))?;
+        let step = expm(&topo.f.scale(self.h_s))
+            .ok_or_else(|| fail("state matrix is not finite", "check the element values"))?;
         let mut gl = Vec::with_capacity(4);
         for x in GL_X {
             gl.push(
-                expm(&topo.f.scale(self.h_s * (1.0 + x) / 2.0))
-                    .ok_or_else(|| fail("state matrix is not finite", "check the element values"))?,
+                expm(&topo.f.scale(self.h_s * (1.0 + x) / 2.0)).ok_or_else(|| {
+                    fail("state matrix is not finite", "check the element values")
+                })?,
             );
         }
         self.n_expm += 5;
@@ -207,7 +217,8 @@ impl Engine {
 
     pub fn expm_scaled(&mut self, f: &Mat, tau: f64) -> Result<Mat, SolveError> {
         self.n_expm += 1;
-        expm(&f.scale(tau)).ok_or_else(|| fail("state matrix is not finite", "check the element values"))
+        expm(&f.scale(tau))
+            .ok_or_else(|| fail("state matrix is not finite", "check the element values"))
     }
 
     fn gate_active(&self, kind: &SwitchKind, t_s: f64) -> bool {
@@ -232,7 +243,13 @@ impl Engine {
                 if on {
                     t.elem_i.row(e).to_vec()
                 } else {
-                    let mut r: Vec<f64> = t.node_v.row(*a).iter().zip(t.node_v.row(*b)).map(|(x, y)| x - y).collect();
+                    let mut r: Vec<f64> = t
+                        .node_v
+                        .row(*a)
+                        .iter()
+                        .zip(t.node_v.row(*b))
+                        .map(|(x, y)| x - y)
+                        .collect();
                     r[ci] -= v_th_v;
                     r
                 }
@@ -273,12 +290,25 @@ impl Engine {
     }
 
     /// Flip violating switches one at a time until the topology is consistent.
-    pub fn settle(&mut self, on: &mut [bool], z: &[f64], t_s: f64, events: &mut Vec<Event>) -> Result<Rc<TopoData>, SolveError> {
+    /// `keep`: a switch that has just flipped at this instant and may not flip
+    /// back before time moves on (its condition sits at the leakage level).
+    pub fn settle(
+        &mut self,
+        on: &mut [bool],
+        z: &[f64],
+        t_s: f64,
+        events: &mut Vec<Event>,
+        keep: Option<usize>,
+    ) -> Result<Rc<TopoData>, SolveError> {
         let n = on.len();
+        let mut seen: Vec<(u64, f64)> = Vec::new();
         for _ in 0..(4 * n + 8) {
             let td = self.topo(on)?;
             let mut worst = (1.0, usize::MAX);
             for k in 0..n {
+                if Some(k) == keep {
+                    continue;
+                }
                 let v = self.violation(&td.topo, k, on[k], z, t_s);
                 if v > worst.0 {
                     worst = (v, k);
@@ -287,6 +317,28 @@ impl Engine {
             if worst.1 == usize::MAX {
                 return Ok(td);
             }
+            let key = Self::key(on);
+            if seen.iter().any(|s| s.0 == key) {
+                // A cycle at the leakage level: no state is exactly consistent.
+                // Take the visited state with the smallest violation.
+                let best = seen
+                    .iter()
+                    .chain(std::iter::once(&(key, worst.0)))
+                    .fold((0u64, f64::INFINITY), |b, s| if s.1 < b.1 { *s } else { b });
+                let best_on = self.on_from_key(best.0);
+                for k in 0..n {
+                    if on[k] != best_on[k] {
+                        on[k] = best_on[k];
+                        events.push(Event {
+                            t_s,
+                            switch: k,
+                            on: on[k],
+                        });
+                    }
+                }
+                return self.topo(on);
+            }
+            seen.push((key, worst.0));
             on[worst.1] = !on[worst.1];
             events.push(Event {
                 t_s,
@@ -312,7 +364,7 @@ impl Engine {
         let mut events = Vec::new();
         let mut pieces = Vec::new();
         let mut knots = Vec::new();
-        let mut td = self.settle(&mut on, &z, spec.t0_s, &mut events)?;
+        let mut td = self.settle(&mut on, &z, spec.t0_s, &mut events, None)?;
         let mut sens = if spec.sensitivity {
             let mut s = Mat::zeros(nz, nx);
             for i in 0..nx {
@@ -327,6 +379,9 @@ impl Engine {
         let mut grid_index: u64 = ((t / h) + 1e-9).floor() as u64;
         let mut contactor_done = spec.contactor_close.is_none();
         let mut n_ev = 0usize;
+        let mut last_flip: Option<(usize, f64)> = None;
+        // Topologies visited at the current instant (cycle guard at leakage level).
+        let mut visited_now: Vec<u64> = vec![Self::key(&on)];
         if spec.record {
             knots.push((t, Self::key(&on), z.clone()));
         }
@@ -345,14 +400,22 @@ impl Engine {
                 }
             }
             if let Some(rule) = &spec.contactor_close {
-                if !contactor_done && rule.at_s.is_finite() && rule.at_s > t + end_tol && rule.at_s < t_next - end_tol {
+                if !contactor_done
+                    && rule.at_s.is_finite()
+                    && rule.at_s > t + end_tol
+                    && rule.at_s < t_next - end_tol
+                {
                     t_next = rule.at_s;
                     at_grid = false;
                 }
             }
             let dt = t_next - t;
             let full = (dt - h).abs() < 1e-9 * h;
-            let e_step = if full { td.step.clone() } else { self.expm_scaled(&td.topo.f, dt)? };
+            let e_step = if full {
+                td.step.clone()
+            } else {
+                self.expm_scaled(&td.topo.f, dt)?
+            };
             let z_end = e_step.mul_vec(&z);
             // Find the earliest crossing among the switches.
             let mut first: Option<(f64, usize, Vec<f64>)> = None;
@@ -366,6 +429,13 @@ impl Engine {
                 }
                 let c = self.cond_row(&td.topo, k, on[k]);
                 let (tau, zr) = self.locate(&td.topo.f, &c, &z, &z_end, dt, on[k])?;
+                // A device that flipped at this very instant and sits at its
+                // threshold (leakage-level current) is not flipped back at the
+                // same instant; the check at the next stop settles it.
+                if tau == 0.0 && (last_flip == Some((k, t)) || visited_now.len() > 2 * on.len() + 2)
+                {
+                    continue;
+                }
                 // A gated device may only fire within its window.
                 if !self.may_switch(k, on[k], t + tau) {
                     continue;
@@ -394,7 +464,10 @@ impl Engine {
                         if first.as_ref().is_none_or(|f| tau < f.0) {
                             first = Some((tau, usize::MAX, zr));
                         }
-                    } else if !at_grid && rule.at_s.is_finite() && (t_next - rule.at_s).abs() < end_tol {
+                    } else if !at_grid
+                        && rule.at_s.is_finite()
+                        && (t_next - rule.at_s).abs() < end_tol
+                    {
                         contactor_now = true;
                     }
                 }
@@ -402,6 +475,9 @@ impl Engine {
             match first {
                 Some((tau, k, zr)) if tau < dt - end_tol => {
                     // Event inside the step.
+                    if tau > 0.0 {
+                        visited_now.clear();
+                    }
                     if spec.record {
                         pieces.push(Piece {
                             t_s: t,
@@ -416,13 +492,22 @@ impl Engine {
                     }
                     t += tau;
                     let f_old = td.topo.f.mul_vec(&zr);
-                    let c = if k == usize::MAX { None } else { Some(self.cond_row(&td.topo, k, on[k])) };
+                    let c = if k == usize::MAX {
+                        None
+                    } else {
+                        Some(self.cond_row(&td.topo, k, on[k]))
+                    };
                     if k == usize::MAX {
                         self.close_contactors(&mut on, t, &mut events);
                         contactor_done = true;
                     } else {
                         on[k] = !on[k];
-                        events.push(Event { t_s: t, switch: k, on: on[k] });
+                        last_flip = Some((k, t));
+                        events.push(Event {
+                            t_s: t,
+                            switch: k,
+                            on: on[k],
+                        });
                         self.n_events += 1;
                     }
                     td = self.topo(&on)?;
@@ -431,7 +516,9 @@ impl Engine {
                         let cf = dot(&c, &f_old);
                         if cf.abs() > 1e-300 {
                             // S += (f+ - f-) (c^T S) / (c^T f-)
-                            let cs: Vec<f64> = (0..nx).map(|j| (0..nz).map(|i| c[i] * s.at(i, j)).sum()).collect();
+                            let cs: Vec<f64> = (0..nx)
+                                .map(|j| (0..nz).map(|i| c[i] * s.at(i, j)).sum())
+                                .collect();
                             for i in 0..nz {
                                 let d = (f_new[i] - f_old[i]) / cf;
                                 if d != 0.0 {
@@ -443,7 +530,15 @@ impl Engine {
                         }
                     }
                     z = zr;
-                    td = self.settle(&mut on, &z, t, &mut events)?;
+                    visited_now.push(Self::key(&on));
+                    td = self.settle(
+                        &mut on,
+                        &z,
+                        t,
+                        &mut events,
+                        if k == usize::MAX { None } else { Some(k) },
+                    )?;
+                    visited_now.push(Self::key(&on));
                     n_ev += 1;
                     if n_ev > self.max_events {
                         return Err(fail(
@@ -466,6 +561,7 @@ impl Engine {
                     }
                     t = t_next;
                     z = z_end;
+                    visited_now.clear();
                     // Keep the oscillator exact (no drift over many steps).
                     self.circuit.osc_at(&mut z, t);
                     if at_grid {
@@ -476,7 +572,8 @@ impl Engine {
                         contactor_done = true;
                     }
                     // Gate openings and settling at stops.
-                    td = self.settle(&mut on, &z, t, &mut events)?;
+                    td = self.settle(&mut on, &z, t, &mut events, None)?;
+                    visited_now.push(Self::key(&on));
                     if spec.record && at_grid {
                         knots.push((t, Self::key(&on), z.clone()));
                     }
@@ -516,7 +613,11 @@ impl Engine {
             {
                 if !on[k] {
                     on[k] = true;
-                    events.push(Event { t_s, switch: k, on: true });
+                    events.push(Event {
+                        t_s,
+                        switch: k,
+                        on: true,
+                    });
                 }
             }
         }
@@ -527,7 +628,15 @@ impl Engine {
         self.circuit
             .switches
             .iter()
-            .map(|&e| matches!(self.circuit.elements[e], Element::Switch { kind: SwitchKind::Contactor, .. }))
+            .map(|&e| {
+                matches!(
+                    self.circuit.elements[e],
+                    Element::Switch {
+                        kind: SwitchKind::Contactor,
+                        ..
+                    }
+                )
+            })
             .collect()
     }
 
@@ -540,7 +649,15 @@ impl Engine {
     /// is on the far side at `dt`.  Safeguarded Newton with bisection; returns
     /// the time just past the root (on the far side, within 1e-12 of a period)
     /// and the state there.
-    fn locate(&mut self, f: &Mat, c: &[f64], z: &[f64], z_end: &[f64], dt: f64, on: bool) -> Result<(f64, Vec<f64>), SolveError> {
+    fn locate(
+        &mut self,
+        f: &Mat,
+        c: &[f64],
+        z: &[f64],
+        z_end: &[f64],
+        dt: f64,
+        on: bool,
+    ) -> Result<(f64, Vec<f64>), SolveError> {
         // g > 0 on the side the switch is happy with.
         let sgn = if on { 1.0 } else { -1.0 };
         let g0 = sgn * dot(c, z);
@@ -548,11 +665,17 @@ impl Engine {
             return Ok((0.0, z.to_vec()));
         }
         let g_end = sgn * dot(c, z_end);
-        let fc: Vec<f64> = (0..f.cols).map(|j| (0..f.rows).map(|i| c[i] * f.at(i, j)).sum()).collect();
+        let fc: Vec<f64> = (0..f.cols)
+            .map(|j| (0..f.rows).map(|i| c[i] * f.at(i, j)).sum())
+            .collect();
         let tol = 1e-12 * self.period_s;
         let (mut lo, mut hi) = (0.0, dt);
         let mut best: Option<(f64, Vec<f64>)> = None;
-        let mut tau = if g_end < 0.0 { dt * g0 / (g0 - g_end) } else { 0.5 * dt };
+        let mut tau = if g_end < 0.0 {
+            dt * g0 / (g0 - g_end)
+        } else {
+            0.5 * dt
+        };
         for _ in 0..100 {
             if hi - lo <= tol {
                 break;
@@ -644,7 +767,13 @@ pub fn solve_periodic(
 }
 
 /// Newton shooting from a given initial state and switch states.
-pub fn solve_periodic_from(eng: &mut Engine, x_start: &[f64], on_start: &[bool], x_scale: &[f64], max_iter: usize) -> Result<SteadyState, SolveError> {
+pub fn solve_periodic_from(
+    eng: &mut Engine,
+    x_start: &[f64],
+    on_start: &[bool],
+    x_scale: &[f64],
+    max_iter: usize,
+) -> Result<SteadyState, SolveError> {
     let nx = x_start.len();
     let mut x0 = x_start.to_vec();
     let mut on0 = on_start.to_vec();
@@ -655,7 +784,12 @@ pub fn solve_periodic_from(eng: &mut Engine, x_start: &[f64], on_start: &[bool],
         sensitivity: true,
         contactor_close: None,
     };
-    let norm = |r: &[f64]| -> f64 { r.iter().zip(x_scale).map(|(v, s)| (v / s).abs()).fold(0.0, f64::max) };
+    let norm = |r: &[f64]| -> f64 {
+        r.iter()
+            .zip(x_scale)
+            .map(|(v, s)| (v / s).abs())
+            .fold(0.0, f64::max)
+    };
     let mut run = eng.run(&x0, &on0, &with_sens)?;
     let mut res: Vec<f64> = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
     let mut rn = norm(&res);
