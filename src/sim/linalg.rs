@@ -395,7 +395,7 @@ mod tests {
             e.at(1, 0)
         );
         let d00 = e.at(0, 0) - (-0.01f64).exp();
-        assert!(d00.abs() < 1e-9, "{d00}"); // measured: about 1e-11 (rounding over 21 squarings)
+        assert!(d00.abs() < 1e-9, "{d00}"); // rounding over about 21 squarings
     }
 
     #[test]
