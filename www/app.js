@@ -207,6 +207,16 @@
     return $$("#inputs [data-path], #inputs [data-variant]").filter((e) => !e.closest("[hidden]"));
   }
 
+  // serde's view of a partial scenario: missing fields take the default, and a
+  // variant object (one with "kind") or an array is replaced whole.
+  function mergeScenario(def, over) {
+    if (over === null || typeof over !== "object" || Array.isArray(over)) return over;
+    if ("kind" in over || def === null || typeof def !== "object") return over;
+    const out = Object.assign({}, def);
+    for (const [k, v] of Object.entries(over)) out[k] = mergeScenario(def[k], v);
+    return out;
+  }
+
   function setPath(obj, path, value) {
     const keys = path.split(".");
     let cur = obj;
@@ -230,13 +240,18 @@
     return Number(input.getAttribute("data-scale") || "1");
   }
 
+  // The scenario the form edits: the default, or the last case opened.  Fields
+  // the page has no input for (background harmonics, imbalance, ...) come from
+  // here unchanged; a variant (an object with "kind") is rebuilt from the form.
+  let base = {};
+
   function buildScenario() {
-    const scenario = {};
+    const scenario = JSON.parse(JSON.stringify(base));
     const errors = [];
     for (const e of activeInputs()) {
       const variant = e.getAttribute("data-variant");
       if (variant) {
-        setPath(scenario, variant + ".kind", e.value);
+        setPath(scenario, variant, { kind: e.value });
         continue;
       }
       const path = e.getAttribute("data-path");
@@ -339,14 +354,16 @@
       if (v !== undefined) sel.value = v;
     }
     updateVisibility();
-    for (const input of $$("input[data-path]")) {
+    for (const input of $$("#inputs input[data-path]")) {
       // Inside a group that belongs to a variant not chosen in the default
       // scenario, the default has no value: take the field's own data-default.
       const group = input.closest("[data-when]");
       const whenPath = group ? group.getAttribute("data-when").split("=")[0] : "";
       const ofVariant = group && $(`select[data-variant="${whenPath}"]`);
       const v = ofVariant && group.hidden ? undefined : get(def, input.getAttribute("data-path"));
-      if (typeof v === "number") {
+      if (input.getAttribute("data-type") === "text") {
+        input.value = typeof v === "string" ? v : "";
+      } else if (typeof v === "number") {
         input.value = String(Number((v / scaleOf(input)).toPrecision(12)));
       } else if (input.hasAttribute("data-default")) {
         input.value = input.getAttribute("data-default");
@@ -354,6 +371,47 @@
         input.value = "0";
       }
     }
+  }
+
+  function saveCase() {
+    const msg = $("#case-msg");
+    const { scenario, errors } = buildScenario();
+    if (errors.length) {
+      msg.textContent = "Correct the marked fields first.";
+      return;
+    }
+    msg.textContent = "";
+    const blob = new Blob([JSON.stringify(scenario, null, 2) + "\n"], { type: "application/json" });
+    const a = document.createElement("a");
+    const stem = (scenario.name || "case").replace(/[^A-Za-z0-9._-]+/g, "-").replace(/^-+|-+$/g, "");
+    a.download = (stem || "case") + ".rectifield.json";
+    a.href = URL.createObjectURL(blob);
+    document.body.appendChild(a);
+    a.click();
+    a.remove();
+    setTimeout(() => URL.revokeObjectURL(a.href), 10000);
+  }
+
+  function openCase(file) {
+    const msg = $("#case-msg");
+    const reader = new FileReader();
+    reader.onload = () => {
+      const text = String(reader.result);
+      try {
+        wasm_bindgen.analyze_json(text); // the engine's own check, with field paths
+      } catch (err) {
+        msg.textContent = file.name + ": " + String(err);
+        return;
+      }
+      base = mergeScenario(wasm_bindgen.default_scenario(), JSON.parse(text));
+      fillDefaults(base);
+      msg.textContent = "Opened " + file.name + ".";
+      compute();
+    };
+    reader.onerror = () => {
+      msg.textContent = file.name + ": could not be read.";
+    };
+    reader.readAsText(file);
   }
 
   function base64ToBytes(b64) {
@@ -368,10 +426,17 @@
     // Async init: Chromium refuses synchronous compiles of large modules.
     await wasm_bindgen({ module_or_path: base64ToBytes(RECTIFIELD_WASM_BASE64) });
     $("#version").textContent = wasm_bindgen.version();
-    fillDefaults(wasm_bindgen.default_scenario());
+    base = wasm_bindgen.default_scenario();
+    fillDefaults(base);
     const form = $("#inputs");
+    $("#save_case").addEventListener("click", saveCase);
+    $("#open_case").addEventListener("change", (ev) => {
+      const f = ev.target.files && ev.target.files[0];
+      if (f) openCase(f);
+      ev.target.value = "";
+    });
     form.addEventListener("input", (ev) => {
-      if (ev.target.tagName === "SELECT") return;
+      if (ev.target.tagName === "SELECT" || ev.target.hasAttribute("data-ignore")) return;
       schedule();
     });
     form.addEventListener("change", (ev) => {

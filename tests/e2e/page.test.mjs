@@ -227,7 +227,7 @@ for (const b of BROWSERS) {
     });
 
     test("touch targets are at least 44 px high", async () => {
-      const small = await page.$$eval("#inputs input, #inputs select", (els) =>
+      const small = await page.$$eval("#inputs input:not([type=file]), #inputs select, #inputs button, #inputs label.button", (els) =>
         els
           .filter((e) => e.offsetParent !== null)
           .map((e) => [e.id, e.getBoundingClientRect().height])
@@ -235,7 +235,10 @@ for (const b of BROWSERS) {
       );
       assert.deepEqual(small, []);
       const modes = await page.$$eval("#inputs input", (els) =>
-        els.filter((e) => e.getAttribute("inputmode") !== "decimal").map((e) => e.id)
+        els
+          .filter((e) => e.type !== "file" && e.getAttribute("data-type") !== "text")
+          .filter((e) => e.getAttribute("inputmode") !== "decimal")
+          .map((e) => e.id)
       );
       assert.deepEqual(modes, [], "number inputs without inputmode=decimal");
     });
@@ -246,6 +249,43 @@ for (const b of BROWSERS) {
       assert.equal(await page.$$eval("#inputs b", (x) => x.length), 0);
       const n = await typeInto("v_ll_rms_v", "400");
       await waitRecomputed(n);
+    });
+
+    test("opening a saved case fills the form and recomputes", async () => {
+      // Our own demo case: a 690 V 60 Hz charger front end on a 1500 kVA transformer.
+      const scenario = {
+        name: "Charger <i>front end</i>, 690 V 60 Hz",
+        supply: { v_ll_rms_v: 690, f_hz: 60 },
+        source: { impedance: { kind: "transformer", s_kva: 1500, z_pct: 5.75, x_over_r: 7 } },
+        bridge: { kind: "six_pulse_thyristor", alpha_deg: 20 },
+      };
+      const file = path.join(profile, "charger.rectifield.json");
+      fs.writeFileSync(file, JSON.stringify(scenario));
+      const n = await computed();
+      const input = await page.$("#open_case");
+      await input.uploadFile(file);
+      await waitRecomputed(n);
+      const val = (id) => page.$eval(`#${id}`, (e) => e.value);
+      assert.equal(await val("v_ll_rms_v"), "690");
+      assert.equal(await val("f_hz"), "60");
+      assert.equal(await val("source_kind"), "transformer");
+      assert.equal(await val("imp_tx_s_kva"), "1500");
+      assert.equal(await val("bridge_kind"), "six_pulse_thyristor");
+      assert.equal(await val("alpha_deg"), "20");
+      assert.equal(await val("case_name"), scenario.name);
+      assert.equal(await page.$$eval("i", (x) => x.length), 0, "name inserted as markup");
+      assert.ok(close(await num("textbook.vdo_v"), K6 * 690, 1e-4));
+      const vda = K6 * 690 * Math.cos((20 * Math.PI) / 180);
+      assert.ok(close(await num("textbook.vd_alpha_v"), vda, 1e-4));
+      // Common practice (per-unit method), as above.
+      const isc = 1500e3 / (Math.sqrt(3) * 690 * 0.0575) / 1e3;
+      assert.ok(close(await num("derived.i_sc_a"), isc, 1e-4));
+
+      const bad = path.join(profile, "bad.rectifield.json");
+      fs.writeFileSync(bad, JSON.stringify({ supply: { f_hz: "sixty" } }));
+      await (await page.$("#open_case")).uploadFile(bad);
+      await page.waitForFunction(() => document.querySelector("#case-msg").textContent.includes("supply.f_hz"));
+      assert.equal(await val("v_ll_rms_v"), "690", "a bad file leaves the form alone");
     });
 
     test("the content security policy blocks connections", async () => {
