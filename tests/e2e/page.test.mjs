@@ -90,7 +90,8 @@ for (const b of BROWSERS) {
       page.on("request", (req) => {
         const url = req.url();
         requests.push(url);
-        if (!(url.startsWith(DIST_URL) || url.startsWith("data:"))) {
+        // blob: is the page's own in-memory data (the saved case), not a network load.
+        if (!(url.startsWith(DIST_URL) || url.startsWith("data:") || url.startsWith("blob:"))) {
           problems.push(`network request: ${url}`);
         }
       });
@@ -286,6 +287,28 @@ for (const b of BROWSERS) {
       await (await page.$("#open_case")).uploadFile(bad);
       await page.waitForFunction(() => document.querySelector("#case-msg").textContent.includes("supply.f_hz"));
       assert.equal(await val("v_ll_rms_v"), "690", "a bad file leaves the form alone");
+    });
+
+    test("saving a case writes the scenario as shown (Chromium download)", { skip: b.name !== "chromium" && "downloads are driven through CDP, Chromium only" }, async () => {
+      const dir = fs.mkdtempSync(path.join(profile, "dl-"));
+      const cdp = await page.createCDPSession();
+      await cdp.send("Browser.setDownloadBehavior", { behavior: "allow", downloadPath: dir });
+      await page.click("#save_case");
+      const deadline = Date.now() + 10000;
+      let files = [];
+      while (Date.now() < deadline) {
+        files = fs.readdirSync(dir).filter((f) => f.endsWith(".json"));
+        if (files.length) break;
+        await new Promise((r) => setTimeout(r, 100));
+      }
+      assert.equal(files.length, 1, `downloads: ${fs.readdirSync(dir).join(", ")}`);
+      assert.match(files[0], /^Charger-i-front-end-i-690-V-60-Hz\.rectifield\.json$/);
+      const saved = JSON.parse(fs.readFileSync(path.join(dir, files[0]), "utf8"));
+      assert.equal(saved.supply.v_ll_rms_v, 690);
+      assert.deepEqual(saved.source.impedance, { kind: "transformer", s_kva: 1500, z_pct: 5.75, x_over_r: 7 });
+      assert.equal(saved.bridge.alpha_deg, 20);
+      assert.equal(saved.dc.cap_f, 2.2e-3, "2200 uF saved in farads");
+      assert.equal(saved.name, "Charger <i>front end</i>, 690 V 60 Hz");
     });
 
     test("the content security policy blocks connections", async () => {
