@@ -451,6 +451,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         });
     }
     let mut cpl = None;
+    let mut net_param = 0.0;
     let (load_elem, load_sign) = match &s.dc.load {
         DcLoad::Resistor { r_ohm } => (
             net.push(Element::Conductance {
@@ -475,6 +476,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
                 a: q,
                 b: n,
                 i_a: *i_a,
+                scaled: false,
             });
             // Keeps the node defined when every device blocks.
             net.push(Element::Conductance {
@@ -495,8 +497,10 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             let e = net.push(Element::CurrentSource {
                 a: q,
                 b: n,
-                i_a: 2.0 * p_w / v0,
+                i_a: 1.0,
+                scaled: true,
             });
+            net_param = 2.0 * p_w / v0;
             let g = net.push(Element::Conductance {
                 a: q,
                 b: n,
@@ -513,7 +517,8 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         .filter(|e| matches!(e, Element::Inductor { .. } | Element::Capacitor { .. }))
         .count();
     let z_base_g = 1.0 / (1e6 * z_base);
-    let circuit = Circuit::new(net.n_nodes, net.el.clone(), osc, z_base_g, z_base_g);
+    let mut circuit = Circuit::new(net.n_nodes, net.el.clone(), osc, z_base_g, z_base_g);
+    circuit.param = net_param;
     let mut x_guess = vec![0.0; n_x];
     let mut x_scale = vec![i_base; n_x];
     for (pos, &e) in circuit.state_elems.iter().enumerate() {

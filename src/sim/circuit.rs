@@ -2,11 +2,12 @@
 //! the state-space model of each conduction state (topology).
 //!
 //! ## Formulation
-//! The state vector is `z = [x; w; 1]`: `x` holds every inductor current and
+//! The state vector is `z = [x; w; p; 1]`: `x` holds every inductor current and
 //! capacitor voltage, `w` holds a (cos, sin) pair per source frequency (so a
 //! sinusoidal source is a linear function of the state and the whole circuit in
 //! one topology is the autonomous linear system `z' = F z`), and the last entry
-//! is the constant 1 that carries DC sources and device threshold voltages.
+//! is the constant 1 that carries DC sources and device threshold voltages; `p`
+//! is a constant parameter (the constant-power load's current, set by an outer loop).
 //!
 //! For a topology (each switch on or off) the resistive network is solved by
 //! modified nodal analysis with inductors as current injections (their state),
@@ -58,8 +59,15 @@ pub enum Element {
         b: Node,
         wave: Vec<(usize, f64)>,
     },
-    /// Constant current `i_a` leaving node `a` through the source into node `b`.
-    CurrentSource { a: Node, b: Node, i_a: f64 },
+    /// Constant current `i_a` leaving node `a` through the source into node `b`;
+    /// when `scaled`, the current is `i_a` times the circuit's parameter entry of `z`
+    /// (so an outer loop can change it without rebuilding any topology).
+    CurrentSource {
+        a: Node,
+        b: Node,
+        i_a: f64,
+        scaled: bool,
+    },
     /// A switch from anode `a` to cathode `b`.
     Switch {
         a: Node,
@@ -85,6 +93,8 @@ pub struct Circuit {
     pub switches: Vec<usize>,
     /// Element index of each state-carrying element (inductors, capacitors), in state order.
     pub state_elems: Vec<usize>,
+    /// Value of the parameter entry of `z` (constant in time).
+    pub param: f64,
 }
 
 /// State-space model of one topology.
@@ -126,6 +136,7 @@ impl Circuit {
             g_min_s,
             switches,
             state_elems,
+            param: 0.0,
         }
     }
 
@@ -136,7 +147,12 @@ impl Circuit {
 
     /// Length of `z`.
     pub fn n_z(&self) -> usize {
-        self.n_x() + 2 * self.osc_omega.len() + 1
+        self.n_x() + 2 * self.osc_omega.len() + 2
+    }
+
+    /// Index of the parameter entry of `z`.
+    pub fn param_idx(&self) -> usize {
+        self.n_z() - 2
     }
 
     /// Index of the constant-1 entry of `z`.
@@ -156,6 +172,7 @@ impl Circuit {
         for k in 0..self.osc_omega.len() {
             z[self.osc_idx(k)] = 1.0;
         }
+        z[self.param_idx()] = self.param;
         z[self.const_idx()] = 1.0;
         z
     }
@@ -169,6 +186,8 @@ impl Circuit {
         }
         let c = self.const_idx();
         z[c] = 1.0;
+        let p = self.param_idx();
+        z[p] = self.param;
     }
 
     /// Build the model of the topology where switch `k` is on iff `on[k]`.
@@ -234,9 +253,10 @@ impl Circuit {
                     inject(&mut rhs, *a, s, -1.0);
                     inject(&mut rhs, *b, s, 1.0);
                 }
-                Element::CurrentSource { a, b, i_a } => {
-                    inject(&mut rhs, *a, ci, -i_a);
-                    inject(&mut rhs, *b, ci, *i_a);
+                Element::CurrentSource { a, b, i_a, scaled } => {
+                    let col = if *scaled { self.param_idx() } else { ci };
+                    inject(&mut rhs, *a, col, -i_a);
+                    inject(&mut rhs, *b, col, *i_a);
                 }
                 Element::Switch {
                     a,
@@ -336,8 +356,9 @@ impl Circuit {
                         elem_i.set(i, c, sol.at(j, c));
                     }
                 }
-                Element::CurrentSource { i_a, .. } => {
-                    elem_i.set(i, ci, *i_a);
+                Element::CurrentSource { i_a, scaled, .. } => {
+                    let col = if *scaled { self.param_idx() } else { ci };
+                    elem_i.set(i, col, *i_a);
                 }
                 Element::Switch {
                     a,

@@ -169,9 +169,18 @@ fn steady(
     let x_guess = built.x_guess.clone();
     let mut st = solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 2, 40)?;
     let mut outer = 0;
-    if let (Some((ei, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
-        // Outer loop on the linearisation point V0 = mean bus voltage.
-        for _ in 0..30 {
+    if let (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
+        // Outer loop on the linearisation point V0 = mean bus voltage.  The
+        // load is i = a - g v with g = P / Vg^2 fixed at the point Vg the
+        // engine was built for, and a = P / V0 + g V0 (its parameter entry,
+        // changed without rebuilding).  When V0 has moved more than 1 % from
+        // Vg the engine is rebuilt with g = P / V0^2.
+        let mut v_g = match eng.circuit.elements[eg] {
+            Element::Conductance { g_s, .. } => (p_w / -g_s).sqrt(),
+            _ => 1.0,
+        };
+        let mut v0_prev = f64::NAN;
+        for _ in 0..40 {
             outer += 1;
             let mean_v = mean_of(&mut eng, built, built.roles.v_dc, &st)?;
             if mean_v.is_nan() || mean_v <= 0.0 {
@@ -180,24 +189,28 @@ fn steady(
                     "the supply cannot deliver this power through its impedance; reduce the power or the impedance",
                 ));
             }
-            let v0_old = match eng.circuit.elements[ei] {
-                Element::CurrentSource { i_a, .. } => 2.0 * p_w / i_a,
-                _ => mean_v,
-            };
-            if (mean_v - v0_old).abs() < 1e-9 * mean_v {
+            let converged = (mean_v - v0_prev).abs() < 1e-9 * mean_v;
+            if converged && (mean_v - v_g).abs() < 0.01 * v_g {
                 break;
             }
-            let mut c = eng.circuit.clone();
-            if let Element::CurrentSource { i_a, .. } = &mut c.elements[ei] {
-                *i_a = 2.0 * p_w / mean_v;
+            v0_prev = mean_v;
+            if (mean_v - v_g).abs() >= 0.01 * v_g {
+                v_g = mean_v;
+                let mut c = eng.circuit.clone();
+                if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
+                    *g_s = -p_w / (v_g * v_g);
+                }
+                c.param = p_w / mean_v + p_w / mean_v;
+                built.circuit = c.clone();
+                let (it, vt) = (eng.i_tol_a, eng.v_tol_v);
+                eng = Engine::new(c, period, cfg.grid_points, it, vt);
+            } else {
+                let g = p_w / (v_g * v_g);
+                eng.circuit.param = p_w / mean_v + g * mean_v;
+                built.circuit.param = eng.circuit.param;
             }
-            if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
-                *g_s = -p_w / (mean_v * mean_v);
-            }
-            built.circuit = c.clone();
             let x0 = st.x0.clone();
             let on0 = st.on0.clone();
-            eng = Engine::new(c, period, cfg.grid_points, eng.i_tol_a, eng.v_tol_v);
             st = solver::solve_periodic_from(&mut eng, &x0, &on0, &built.x_scale, 40)?;
         }
     }

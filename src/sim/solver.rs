@@ -58,6 +58,10 @@ fn fail(reason: &str, hint: &str) -> SolveError {
     }
 }
 
+/// Levels of the dyadic table: times are resolved to `h / 2^TABLE_LEVELS`
+/// (about 1e-12 of a period at the default grid).
+pub const TABLE_LEVELS: usize = 30;
+
 /// Cached data of one topology.
 pub struct TopoData {
     pub topo: Topology,
@@ -65,6 +69,11 @@ pub struct TopoData {
     pub step: Mat,
     /// `expm(F h (1 + x_j) / 2)` at the Gauss nodes of a full step.
     pub gl: Vec<Mat>,
+    /// `table[i] = expm(F h / 2^i)`, i = 0..=TABLE_LEVELS.  Any time in a step,
+    /// rounded to the finest level, is a product of these (they commute), so
+    /// the state anywhere costs at most one matrix-vector product per level,
+    /// and bisection for a switching instant costs one per level.
+    pub table: Vec<Mat>,
 }
 
 /// A recorded piece of trajectory: from `t_s` for `dt_s` in topology `key`, starting at `z`.
@@ -191,18 +200,41 @@ impl Engine {
                 "check for a zero resistance or a capacitor placed directly across a source",
             )
         })?;
-        let step = expm(&topo.f.scale(self.h_s))
-            .ok_or_else(|| fail("state matrix is not finite", "check the element values"))?;
+        let bad = || fail("state matrix is not finite", "check the element values");
+        // Direct exponentials where the scaled norm is small (cheap low-degree
+        // Padé, full accuracy); squaring upward only above that, as scaling and
+        // squaring would.  Computing the fine levels by squaring up from the
+        // finest would lose the slow modes under the identity's rounding.
+        let mut table: Vec<Option<Mat>> = vec![None; TABLE_LEVELS + 1];
+        let n1 = topo.f.norm_1() * self.h_s;
+        let i0 = if n1 > 5.37 {
+            ((n1 / 5.37).log2().ceil() as usize).min(TABLE_LEVELS)
+        } else {
+            0
+        };
+        for i in i0..=TABLE_LEVELS {
+            table[i] = Some(expm(&topo.f.scale(self.h_s / (1u64 << i) as f64)).ok_or_else(bad)?);
+        }
+        for i in (0..i0).rev() {
+            let next = table[i + 1].as_ref().ok_or_else(bad)?;
+            table[i] = Some(next.mul(next));
+        }
+        let table: Vec<Mat> = table
+            .into_iter()
+            .map(|m| m.unwrap_or_else(|| Mat::zeros(0, 0)))
+            .collect();
+        let step = table[0].clone();
         let mut gl = Vec::with_capacity(4);
         for x in GL_X {
-            gl.push(
-                expm(&topo.f.scale(self.h_s * (1.0 + x) / 2.0)).ok_or_else(|| {
-                    fail("state matrix is not finite", "check the element values")
-                })?,
-            );
+            gl.push(expm(&topo.f.scale(self.h_s * (1.0 + x) / 2.0)).ok_or_else(bad)?);
         }
-        self.n_expm += 5;
-        let d = Rc::new(TopoData { topo, step, gl });
+        self.n_expm += TABLE_LEVELS + 1 - i0 + 4;
+        let d = Rc::new(TopoData {
+            topo,
+            step,
+            gl,
+            table,
+        });
         if self.cache.len() < 4096 {
             self.cache.insert(key, d.clone());
         }
@@ -215,10 +247,47 @@ impl Engine {
         self.topo(&on)
     }
 
-    pub fn expm_scaled(&mut self, f: &Mat, tau: f64) -> Result<Mat, SolveError> {
-        self.n_expm += 1;
-        expm(&f.scale(tau))
-            .ok_or_else(|| fail("state matrix is not finite", "check the element values"))
+    /// Number of finest-level ticks in `tau` (0 ..= 2^TABLE_LEVELS).
+    fn ticks(&self, tau: f64) -> u64 {
+        let full = 1u64 << TABLE_LEVELS;
+        ((tau / self.h_s) * full as f64)
+            .round()
+            .clamp(0.0, full as f64) as u64
+    }
+
+    /// Time of `m` finest-level ticks.
+    fn tick_time(&self, m: u64) -> f64 {
+        self.h_s * m as f64 / (1u64 << TABLE_LEVELS) as f64
+    }
+
+    /// `expm(F tau) z` via the table (tau rounded to the finest level, within one step).
+    pub fn prop_vec(td: &TopoData, m: u64, z: &[f64]) -> Vec<f64> {
+        if m == 1u64 << TABLE_LEVELS {
+            return td.step.mul_vec(z);
+        }
+        let mut v = z.to_vec();
+        let mut tmp = vec![0.0; v.len()];
+        for i in 1..=TABLE_LEVELS {
+            if m & (1u64 << (TABLE_LEVELS - i)) != 0 {
+                td.table[i].mul_vec_into(&v, &mut tmp);
+                std::mem::swap(&mut v, &mut tmp);
+            }
+        }
+        v
+    }
+
+    /// `expm(F tau) S` via the table.
+    pub fn prop_mat(td: &TopoData, m: u64, s: &Mat) -> Mat {
+        if m == 1u64 << TABLE_LEVELS {
+            return td.step.mul(s);
+        }
+        let mut out = s.clone();
+        for i in 1..=TABLE_LEVELS {
+            if m & (1u64 << (TABLE_LEVELS - i)) != 0 {
+                out = td.table[i].mul(&out);
+            }
+        }
+        out
     }
 
     fn gate_active(&self, kind: &SwitchKind, t_s: f64) -> bool {
@@ -409,14 +478,15 @@ impl Engine {
                     at_grid = false;
                 }
             }
-            let dt = t_next - t;
-            let full = (dt - h).abs() < 1e-9 * h;
-            let e_step = if full {
-                td.step.clone()
+            let m_dt = self.ticks(t_next - t);
+            let dt = self.tick_time(m_dt);
+            if at_grid {
+                // Land exactly on the grid point (no drift from tick rounding).
+                t_next = ((grid_index + 1) as f64 * h).min(spec.t1_s);
             } else {
-                self.expm_scaled(&td.topo.f, dt)?
-            };
-            let z_end = e_step.mul_vec(&z);
+                t_next = t + dt;
+            }
+            let z_end = Self::prop_vec(&td, m_dt, &z);
             // Find the earliest crossing among the switches.
             let mut first: Option<(f64, usize, Vec<f64>)> = None;
             for k in 0..on.len() {
@@ -428,7 +498,7 @@ impl Engine {
                     continue;
                 }
                 let c = self.cond_row(&td.topo, k, on[k]);
-                let (tau, zr) = self.locate(&td.topo.f, &c, &z, &z_end, dt, on[k])?;
+                let (tau, zr) = self.locate(&td, &c, &z, m_dt, on[k]);
                 // A device that flipped at this very instant and sits at its
                 // threshold (leakage-level current) is not flipped back at the
                 // same instant; the check at the next stop settles it.
@@ -460,7 +530,7 @@ impl Engine {
                     if rule.level_v.is_finite() && v_end >= rule.level_v {
                         let mut c = row.clone();
                         c[self.circuit.const_idx()] -= rule.level_v;
-                        let (tau, zr) = self.locate(&td.topo.f, &c, &z, &z_end, dt, false)?;
+                        let (tau, zr) = self.locate(&td, &c, &z, m_dt, false);
                         if first.as_ref().is_none_or(|f| tau < f.0) {
                             first = Some((tau, usize::MAX, zr));
                         }
@@ -487,8 +557,8 @@ impl Engine {
                         });
                     }
                     if let Some(s) = sens.as_mut() {
-                        let e_tau = self.expm_scaled(&td.topo.f, tau)?;
-                        *s = e_tau.mul(s);
+                        let m_tau = self.ticks(tau);
+                        *s = Self::prop_mat(&td, m_tau, s);
                     }
                     t += tau;
                     let f_old = td.topo.f.mul_vec(&zr);
@@ -557,7 +627,7 @@ impl Engine {
                         });
                     }
                     if let Some(s) = sens.as_mut() {
-                        *s = e_step.mul(s);
+                        *s = Self::prop_mat(&td, m_dt, s);
                     }
                     t = t_next;
                     z = z_end;
@@ -645,68 +715,38 @@ impl Engine {
         self.cache.len()
     }
 
-    /// Locate the first zero of `c . expm(F tau) z` on (0, dt], given that it
-    /// is on the far side at `dt`.  Safeguarded Newton with bisection; returns
-    /// the time just past the root (on the far side, within 1e-12 of a period)
-    /// and the state there.
-    fn locate(
-        &mut self,
-        f: &Mat,
-        c: &[f64],
-        z: &[f64],
-        z_end: &[f64],
-        dt: f64,
-        on: bool,
-    ) -> Result<(f64, Vec<f64>), SolveError> {
+    /// Locate a zero of `c . expm(F tau) z` on (0, dt] (dt = `m_dt` ticks), given
+    /// that it is on the far side at `dt`: bisection on the dyadic table, one
+    /// matrix-vector product per level.  Returns the time just past the root (on
+    /// the far side, within one finest tick) and the state there.
+    fn locate(&self, td: &TopoData, c: &[f64], z: &[f64], m_dt: u64, on: bool) -> (f64, Vec<f64>) {
         // g > 0 on the side the switch is happy with.
         let sgn = if on { 1.0 } else { -1.0 };
-        let g0 = sgn * dot(c, z);
-        if g0 <= 0.0 {
-            return Ok((0.0, z.to_vec()));
+        if sgn * dot(c, z) <= 0.0 {
+            return (0.0, z.to_vec());
         }
-        let g_end = sgn * dot(c, z_end);
-        let fc: Vec<f64> = (0..f.cols)
-            .map(|j| (0..f.rows).map(|i| c[i] * f.at(i, j)).sum())
-            .collect();
-        let tol = 1e-12 * self.period_s;
-        let (mut lo, mut hi) = (0.0, dt);
-        let mut best: Option<(f64, Vec<f64>)> = None;
-        let mut tau = if g_end < 0.0 {
-            dt * g0 / (g0 - g_end)
+        let mut lo: u64 = 0;
+        let mut z_lo = z.to_vec();
+        let mut tmp = vec![0.0; z.len()];
+        for i in 0..=TABLE_LEVELS {
+            let step = 1u64 << (TABLE_LEVELS - i);
+            if lo + step >= m_dt {
+                continue;
+            }
+            td.table[i].mul_vec_into(&z_lo, &mut tmp);
+            if sgn * dot(c, &tmp) > 0.0 {
+                lo += step;
+                std::mem::swap(&mut z_lo, &mut tmp);
+            }
+        }
+        // One finest tick past the last good point.
+        let hi = (lo + 1).min(m_dt);
+        let z_hi = if hi == m_dt {
+            Self::prop_vec(td, m_dt, z)
         } else {
-            0.5 * dt
+            Self::prop_vec(td, 1, &z_lo)
         };
-        for _ in 0..100 {
-            if hi - lo <= tol {
-                break;
-            }
-            let zt = self.expm_scaled(f, tau)?.mul_vec(z);
-            let g = sgn * dot(c, &zt);
-            let dg = sgn * dot(&fc, &zt);
-            if g > 0.0 {
-                lo = tau;
-            } else {
-                hi = tau;
-                best = Some((tau, zt));
-            }
-            if hi - lo <= tol {
-                break;
-            }
-            let mut next = if dg != 0.0 { tau - g / dg } else { f64::NAN };
-            // Nudge across the root so the bracket closes from both sides.
-            next += if g > 0.0 { 0.5 * tol } else { -0.5 * tol };
-            if !(next > lo && next < hi) {
-                next = 0.5 * (lo + hi);
-            }
-            tau = next;
-        }
-        match best {
-            Some((t, zt)) if t == hi => Ok((hi, zt)),
-            _ => {
-                let zt = self.expm_scaled(f, hi)?.mul_vec(z);
-                Ok((hi, zt))
-            }
-        }
+        (self.tick_time(hi), z_hi)
     }
 
     /// Evaluate the state at Gauss nodes of a recorded piece.
@@ -715,11 +755,11 @@ impl Engine {
         let full = (p.dt_s - self.h_s).abs() < 1e-9 * self.h_s;
         let mut out = Vec::with_capacity(4);
         for j in 0..4 {
-            let tau = p.dt_s * (1.0 + GL_X[j]) / 2.0;
-            let zt = if full {
-                td.gl[j].mul_vec(&p.z)
+            let (tau, zt) = if full {
+                (p.dt_s * (1.0 + GL_X[j]) / 2.0, td.gl[j].mul_vec(&p.z))
             } else {
-                self.expm_scaled(&td.topo.f, tau)?.mul_vec(&p.z)
+                let m = self.ticks(p.dt_s * (1.0 + GL_X[j]) / 2.0);
+                (self.tick_time(m), Self::prop_vec(&td, m, &p.z))
             };
             out.push((p.t_s + tau, GL_W[j] * p.dt_s / 2.0, zt));
         }
