@@ -11,6 +11,8 @@ use std::f64::consts::{PI, SQRT_2};
 pub enum Basic {
     Node(Node),
     Elem(usize),
+    /// Time derivative of an inductor's current (element index).
+    Deriv(usize),
 }
 
 /// A named linear combination of node voltages and element currents.
@@ -191,7 +193,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
     struct SetOut {
         bridge_nodes: [Node; 3],
         src: [usize; 3],
-        pcc: [Node; 3],
+        pcc: [Vec<(Basic, f64)>; 3],
     }
     let make_set = |net: &mut Net,
                     neutral: Node,
@@ -201,7 +203,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
      -> SetOut {
         let mut bridge_nodes = [0; 3];
         let mut src = [0; 3];
-        let mut pcc = [0; 3];
+        let mut pcc: [Vec<(Basic, f64)>; 3] = Default::default();
         for k in 0..3 {
             let sn = net.node();
             let wave_terms = phase_wave(s, k, shift, &orders, 1.0);
@@ -218,7 +220,26 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
                 // Lost phase: the line is open right at the source.
                 let b = net.node();
                 bridge_nodes[k] = b;
-                pcc[k] = b;
+                pcc[k] = vec![(Basic::Node(b), 1.0)];
+                continue;
+            }
+            if d.l_source_h > 0.0 && d.l_reactor_h > 0.0 {
+                // Source and reactor in series: one inductor (one state), the
+                // PCC voltage between them recovered as v_s - Ls di/dt - Rs i.
+                let b = net.node();
+                let e = net.push(Element::Inductor {
+                    a: sn,
+                    b,
+                    l_h: d.l_source_h + d.l_reactor_h,
+                    r_ohm: d.r_source_ohm + d.r_reactor_ohm,
+                });
+                net.guess.push((e, line_guess[k], id_guess));
+                bridge_nodes[k] = b;
+                pcc[k] = vec![
+                    (Basic::Node(sn), 1.0),
+                    (Basic::Deriv(e), -d.l_source_h),
+                    (Basic::Elem(e), -d.r_source_ohm),
+                ];
                 continue;
             }
             let (x, _) = net.series(
@@ -229,7 +250,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
                 line_guess[k],
                 id_guess,
             );
-            pcc[k] = x;
+            pcc[k] = vec![(Basic::Node(x), 1.0)];
             let (b, _) = net.series(x, d.l_reactor_h, d.r_reactor_ohm, line_guess[k], id_guess);
             bridge_nodes[k] = b;
             let _ = &probes;
@@ -583,7 +604,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             &mut probes,
             &format!("v_pcc_{}n", names[k]),
             "V",
-            vec![(Basic::Node(sets[0].pcc[k]), 1.0)],
+            sets[0].pcc[k].clone(),
         );
     }
     roles.v_dc = add_probe(

@@ -107,12 +107,16 @@ pub struct RoleIndex {
     pub secondary_i: Vec<[usize; 3]>,
 }
 
-fn probe_row(p: &Probe, t: &Topology) -> Vec<f64> {
+fn probe_row(p: &Probe, t: &Topology, circuit: &circuit::Circuit) -> Vec<f64> {
     let mut row = vec![0.0; t.f.cols];
     for &(b, c) in &p.terms {
         let r = match b {
             Basic::Node(n) => t.node_v.row(n),
             Basic::Elem(e) => t.elem_i.row(e),
+            Basic::Deriv(e) => match circuit.state_elems.iter().position(|&x| x == e) {
+                Some(s) => t.f.row(s),
+                None => continue,
+            },
         };
         for (o, x) in row.iter_mut().zip(r) {
             *o += c * x;
@@ -237,7 +241,7 @@ fn mean_of(
     let mut acc = 0.0;
     for p in &run.pieces {
         let td = eng.topo_key(p.key)?;
-        let row = probe_row(&built.probes[probe], &td.topo);
+        let row = probe_row(&built.probes[probe], &td.topo, &built.circuit);
         for (_, w, z) in eng.gauss_states(p)? {
             acc += w * dot(&row, &z);
         }
@@ -296,7 +300,7 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
             let rows: Vec<Vec<f64>> = built
                 .probes
                 .iter()
-                .map(|pr| probe_row(pr, &td.topo))
+                .map(|pr| probe_row(pr, &td.topo, &built.circuit))
                 .collect();
             rows_cache.insert(p.key, rows);
         }
@@ -348,7 +352,7 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
                 built
                     .probes
                     .iter()
-                    .map(|pr| probe_row(pr, &td.topo))
+                    .map(|pr| probe_row(pr, &td.topo, &built.circuit))
                     .collect(),
             );
         }
@@ -513,8 +517,16 @@ fn power_up(
     let mut charge = None;
     for k in &run.knots {
         let td = eng.topo_key(k.1)?;
-        let v = dot(&probe_row(&built.probes[r.v_dc], &td.topo), &k.2);
-        let i = [0, 1, 2].map(|j| dot(&probe_row(&built.probes[r.line_i[j]], &td.topo), &k.2));
+        let v = dot(
+            &probe_row(&built.probes[r.v_dc], &td.topo, &built.circuit),
+            &k.2,
+        );
+        let i = [0, 1, 2].map(|j| {
+            dot(
+                &probe_row(&built.probes[r.line_i[j]], &td.topo, &built.circuit),
+                &k.2,
+            )
+        });
         t_s.push(k.0);
         v_dc.push(v);
         ia.push(i[0]);
@@ -531,7 +543,7 @@ fn power_up(
         let rows: Vec<Vec<f64>> = r
             .line_i
             .iter()
-            .map(|&j| probe_row(&built.probes[j], &td.topo))
+            .map(|&j| probe_row(&built.probes[j], &td.topo, &built.circuit))
             .collect();
         for (_, _, z) in eng.gauss_states(p)? {
             for row in &rows {

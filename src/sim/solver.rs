@@ -74,6 +74,9 @@ pub struct TopoData {
     /// the state anywhere costs at most one matrix-vector product per level,
     /// and bisection for a switching instant costs one per level.
     pub table: Vec<Mat>,
+    /// Condition row of each switch in this topology (current if on, voltage
+    /// minus threshold if off).
+    pub cond: Vec<Vec<f64>>,
 }
 
 /// A recorded piece of trajectory: from `t_s` for `dt_s` in topology `key`, starting at `z`.
@@ -229,11 +232,15 @@ impl Engine {
             gl.push(expm(&topo.f.scale(self.h_s * (1.0 + x) / 2.0)).ok_or_else(bad)?);
         }
         self.n_expm += TABLE_LEVELS + 1 - i0 + 4;
+        let cond = (0..on.len())
+            .map(|k| self.cond_row(&topo, k, on[k]))
+            .collect();
         let d = Rc::new(TopoData {
             topo,
             step,
             gl,
             table,
+            cond,
         });
         if self.cache.len() < 4096 {
             self.cache.insert(key, d.clone());
@@ -346,11 +353,11 @@ impl Engine {
     }
 
     /// Violation measure of switch `k` (> 1 means it must flip).
-    fn violation(&self, t: &Topology, k: usize, on: bool, z: &[f64], t_s: f64) -> f64 {
+    fn violation(&self, td: &TopoData, k: usize, on: bool, z: &[f64], t_s: f64) -> f64 {
         if !self.may_switch(k, on, t_s) {
             return 0.0;
         }
-        let v: f64 = dot(&self.cond_row(t, k, on), z);
+        let v: f64 = dot(&td.cond[k], z);
         if on {
             -v / self.i_tol_a
         } else {
@@ -378,7 +385,7 @@ impl Engine {
                 if Some(k) == keep {
                     continue;
                 }
-                let v = self.violation(&td.topo, k, on[k], z, t_s);
+                let v = self.violation(&td, k, on[k], z, t_s);
                 if v > worst.0 {
                     worst = (v, k);
                 }
@@ -493,11 +500,11 @@ impl Engine {
                 if !self.may_switch(k, on[k], t_next) && !self.may_switch(k, on[k], t) {
                     continue;
                 }
-                let v_end = self.violation(&td.topo, k, on[k], &z_end, t_next);
+                let v_end = self.violation(&td, k, on[k], &z_end, t_next);
                 if v_end <= 1.0 {
                     continue;
                 }
-                let c = self.cond_row(&td.topo, k, on[k]);
+                let c = td.cond[k].clone();
                 let (tau, zr) = self.locate(&td, &c, &z, m_dt, on[k]);
                 // A device that flipped at this very instant and sits at its
                 // threshold (leakage-level current) is not flipped back at the
@@ -565,7 +572,7 @@ impl Engine {
                     let c = if k == usize::MAX {
                         None
                     } else {
-                        Some(self.cond_row(&td.topo, k, on[k]))
+                        Some(td.cond[k].clone())
                     };
                     if k == usize::MAX {
                         self.close_contactors(&mut on, t, &mut events);
