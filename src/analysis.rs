@@ -15,6 +15,10 @@ pub struct Analysis {
     /// DC current the closed forms were evaluated at, A.
     pub textbook_i_d_a: f64,
     pub textbook: TextbookResult,
+    /// The exact switched-circuit simulation (None when it failed; the reason is in `warnings`).
+    pub sim: Option<crate::sim::SimResult>,
+    /// Results computed from the simulation.
+    pub results: Option<crate::results::Results>,
     pub warnings: Vec<String>,
 }
 
@@ -88,7 +92,7 @@ pub fn alpha_rad(s: &Scenario) -> f64 {
 /// Analyse one scenario.
 pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
     let derived = params::derive(s)?;
-    let id = textbook_dc_current(s, &derived)?;
+    let id = textbook_dc_current(s, &derived).unwrap_or(0.0);
     let textbook = textbook::evaluate(&TextbookInput {
         family: family(s.bridge.kind),
         v_ll_rms_v: s.supply.v_ll_rms_v,
@@ -98,11 +102,25 @@ pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
         i_d_a: id,
         h_max: s.analysis.h_max.clamp(1, 100),
     })?;
+    let mut warnings = Vec::new();
+    let (sim, results) = match crate::sim::simulate(s, &derived) {
+        Ok(sim) => {
+            warnings.extend(sim.warnings.iter().cloned());
+            let r = crate::results::compute(s, &derived, &sim, &textbook);
+            (Some(sim), Some(r))
+        }
+        Err(e) => {
+            warnings.push(format!("simulation: {e}"));
+            (None, None)
+        }
+    };
     Ok(Analysis {
         version: env!("CARGO_PKG_VERSION").to_string(),
         derived,
         textbook_i_d_a: id,
         textbook,
-        warnings: Vec::new(),
+        sim,
+        results,
+        warnings,
     })
 }

@@ -11,6 +11,7 @@
 pub mod analysis;
 pub mod params;
 pub mod report;
+pub mod results;
 pub mod scenario;
 pub mod sim;
 pub mod textbook;

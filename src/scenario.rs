@@ -234,6 +234,16 @@ pub struct DcSide {
     pub precharge_bypass_s: f64,
     /// Precharge bypass when the bus reaches this fraction of its peak line voltage (0 = by time only).
     pub precharge_bypass_pu: f64,
+    /// Precharge resistor left in circuit in steady state (a failed bypass contactor).
+    pub precharge_stuck: bool,
+    /// Capacitor bank thermal resistance core to ambient, K/W.
+    pub cap_rth_k_per_w: f64,
+    /// Capacitor rated life at its rated temperature, hours.
+    pub cap_rated_life_h: f64,
+    /// Capacitor rated (category) temperature, degrees C.
+    pub cap_rated_temp_c: f64,
+    /// Ambient temperature around the capacitors, degrees C.
+    pub ambient_c: f64,
 }
 
 impl Default for DcSide {
@@ -248,6 +258,11 @@ impl Default for DcSide {
             precharge_r_ohm: 0.0,
             precharge_bypass_s: 0.0,
             precharge_bypass_pu: 0.0,
+            precharge_stuck: false,
+            cap_rth_k_per_w: 1.5,
+            cap_rated_life_h: 5000.0,
+            cap_rated_temp_c: 105.0,
+            ambient_c: 40.0,
         }
     }
 }

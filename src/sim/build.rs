@@ -59,6 +59,8 @@ pub struct Built {
     /// Precharge: nodes across the bus for the bypass rule.
     pub bus_nodes: (Node, Node),
     pub has_contactor: bool,
+    /// Elements whose dissipation counts as loss (all but sources and the load).
+    pub loss_elems: Vec<usize>,
 }
 
 struct Net {
@@ -424,16 +426,21 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             b: q,
             g_s: 1.0 / s.dc.precharge_r_ohm,
         });
-        net.push(Element::Switch {
-            a: m,
-            b: q,
-            kind: SwitchKind::Contactor,
-            v_th_v: 0.0,
-            r_on_ohm: net.r_min.max(1e-9),
-            open: false,
-        });
-        has_contactor = true;
-        q
+        if s.dc.precharge_stuck {
+            // The bypass never closes: the resistor stays in circuit.
+            return_q(q)
+        } else {
+            net.push(Element::Switch {
+                a: m,
+                b: q,
+                kind: SwitchKind::Contactor,
+                v_th_v: 0.0,
+                r_on_ohm: net.r_min.max(1e-9),
+                open: false,
+            });
+            has_contactor = true;
+            q
+        }
     } else {
         m
     };
@@ -473,6 +480,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
     }
     let mut cpl = None;
     let mut net_param = 0.0;
+    let mut load_extra: Option<usize> = None;
     let (load_elem, load_sign) = match &s.dc.load {
         DcLoad::Resistor { r_ohm } => (
             net.push(Element::Conductance {
@@ -484,7 +492,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         ),
         DcLoad::Rle { r_ohm, l_h, e_v } => {
             let (e1, el) = net.series(q, *l_h, r_ohm.max(net.r_min), id_guess, id_guess);
-            let _ = el;
+            load_extra = el;
             let e = net.push(Element::VoltageSource {
                 a: e1,
                 b: n,
@@ -538,6 +546,24 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         .filter(|e| matches!(e, Element::Inductor { .. } | Element::Capacitor { .. }))
         .count();
     let z_base_g = 1.0 / (1e6 * z_base);
+    let mut load_set: Vec<usize> = match cpl {
+        Some((e, g)) => vec![e, g],
+        None => vec![load_elem],
+    };
+    load_set.extend(load_extra);
+    let loss_elems: Vec<usize> = net
+        .el
+        .iter()
+        .enumerate()
+        .filter(|(i, e)| {
+            !load_set.contains(i)
+                && matches!(
+                    e,
+                    Element::Conductance { .. } | Element::Inductor { .. } | Element::Switch { .. }
+                )
+        })
+        .map(|(i, _)| i)
+        .collect();
     let mut circuit = Circuit::new(net.n_nodes, net.el.clone(), osc, z_base_g, z_base_g);
     circuit.param = net_param;
     let mut x_guess = vec![0.0; n_x];
@@ -677,7 +703,12 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         cpl,
         bus_nodes: (q, n),
         has_contactor,
+        loss_elems,
     }
+}
+
+fn return_q(q: Node) -> Node {
+    q
 }
 
 fn node_a(c: &Circuit, e: usize) -> Node {

@@ -84,6 +84,9 @@ pub struct SimResult {
     pub p_phase_w: [f64; 3],
     /// Mean power into the DC load terminals `mean(v_dc i_load)`, W.
     pub p_load_w: f64,
+    /// Mean dissipation in every modelled resistance and device (source and
+    /// reactor resistance, ESR, bleed, devices, leakage), W.
+    pub p_loss_w: f64,
     pub newton_iterations: usize,
     pub residual: f64,
     pub topologies: usize,
@@ -106,6 +109,9 @@ pub struct RoleIndex {
     pub devices: Vec<(usize, usize)>,
     pub secondary_i: Vec<[usize; 3]>,
 }
+
+/// Current row, voltage row and series resistance (negative: use v i) of a loss element.
+type LossRow = (Vec<f64>, Vec<f64>, f64);
 
 fn probe_row(p: &Probe, t: &Topology, circuit: &circuit::Circuit) -> Vec<f64> {
     let mut row = vec![0.0; t.f.cols];
@@ -294,7 +300,39 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
     let mut rows_cache: std::collections::HashMap<u64, Vec<Vec<f64>>> =
         std::collections::HashMap::new();
     let mut vals = vec![0.0; n_probe];
+    let mut p_loss = 0.0;
+    // Per topology: (current row, voltage row, is-inductor resistance) of each loss element.
+    let mut loss_cache: std::collections::HashMap<u64, Vec<LossRow>> =
+        std::collections::HashMap::new();
+    let g_min = built.circuit.g_min_s;
     for p in &run.pieces {
+        if !loss_cache.contains_key(&p.key) {
+            let td = eng.topo_key(p.key)?;
+            let rows: Vec<LossRow> = built
+                .loss_elems
+                .iter()
+                .map(|&e| {
+                    let (a, b, r_l) = match built.circuit.elements[e] {
+                        Element::Conductance { a, b, .. } | Element::Switch { a, b, .. } => {
+                            (a, b, -1.0)
+                        }
+                        Element::Inductor { a, b, r_ohm, .. } => (a, b, r_ohm),
+                        _ => (0, 0, -1.0),
+                    };
+                    let iv = td.topo.elem_i.row(e).to_vec();
+                    let vv: Vec<f64> = td
+                        .topo
+                        .node_v
+                        .row(a)
+                        .iter()
+                        .zip(td.topo.node_v.row(b))
+                        .map(|(x, y)| x - y)
+                        .collect();
+                    (iv, vv, r_l)
+                })
+                .collect();
+            loss_cache.insert(p.key, rows);
+        }
         if !rows_cache.contains_key(&p.key) {
             let td = eng.topo_key(p.key)?;
             let rows: Vec<Vec<f64>> = built
@@ -312,7 +350,22 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
             mn[i] = mn[i].min(v);
             mx[i] = mx[i].max(v);
         }
+        let lrows = &loss_cache[&p.key];
+        let td_nodes = eng.topo_key(p.key)?;
         for (t, wt, z) in gs {
+            for (iv, vv, r_l) in lrows {
+                let i = dot(iv, &z);
+                p_loss += wt
+                    * if *r_l >= 0.0 {
+                        r_l * i * i
+                    } else {
+                        i * dot(vv, &z)
+                    };
+            }
+            for nn in 1..built.circuit.n_nodes {
+                let vn = dot(td_nodes.topo.node_v.row(nn), &z);
+                p_loss += wt * g_min * vn * vn;
+            }
             for (i, row) in rows.iter().enumerate() {
                 vals[i] = dot(row, &z);
                 sum[i] += wt * vals[i];
@@ -448,6 +501,7 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
         roles,
         p_phase_w: p_phase.map(|x| x / period),
         p_load_w: p_load / period,
+        p_loss_w: p_loss / period,
         newton_iterations: st.iterations,
         residual: st.residual,
         topologies: eng_topologies(&eng),
