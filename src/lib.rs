@@ -9,11 +9,13 @@
 #![allow(clippy::needless_range_loop, clippy::map_entry)]
 
 pub mod analysis;
+pub mod examples;
 pub mod params;
 pub mod report;
 pub mod results;
 pub mod scenario;
 pub mod sim;
+pub mod sweep;
 pub mod textbook;
 
 #[cfg(target_arch = "wasm32")]

@@ -5,8 +5,13 @@ use crate::scenario::Scenario;
 use std::fmt::Write;
 
 fn line(out: &mut String, label: &str, value: f64, unit: &str) {
-    let _ = writeln!(out, "  {label:<38} {value:>12.4} {unit}");
+    let _ = writeln!(out, "  {label:<40} {value:>12.4} {unit}");
 }
+
+/// The safety caution printed with every report.
+pub const SAFETY: &str = "SAFETY: DC buses and capacitors can kill. Wait at least the discharge time on the \
+equipment label, prove the bus below a safe level with a rated meter before touching, lock out and tag out, \
+qualified persons only. Local codes, licensed practice and the maker's manual govern.";
 
 /// Render a readable report.
 pub fn text(s: &Scenario, a: &Analysis) -> String {
@@ -23,6 +28,190 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
     line(&mut o, "source L per phase", d.l_source_h * 1e6, "uH");
     line(&mut o, "reactor L per phase", d.l_reactor_h * 1e6, "uH");
     line(&mut o, "short-circuit current at PCC", d.i_sc_a / 1e3, "kA");
+    line(
+        &mut o,
+        "rated power (for % impedances)",
+        d.rated_power_w / 1e3,
+        "kW",
+    );
+
+    if let (Some(r), Some(sim)) = (&a.results, &a.sim) {
+        let _ = writeln!(
+            o,
+            "\nExact periodic steady state (switched-circuit simulation)"
+        );
+        let dc = &r.dc;
+        line(&mut o, "DC voltage average", dc.v_avg_v, "V");
+        line(&mut o, "DC ripple peak-to-peak", dc.ripple_pp_v, "V");
+        line(&mut o, "DC ripple RMS (meter on AC)", dc.ripple_rms_v, "V");
+        line(&mut o, "ripple factor", dc.ripple_factor * 100.0, "%");
+        line(
+            &mut o,
+            "dominant ripple frequency",
+            dc.ripple_dominant_hz,
+            "Hz",
+        );
+        line(&mut o, "DC current average", dc.i_avg_a, "A");
+        line(&mut o, "DC current RMS", dc.i_rms_a, "A");
+        let _ = writeln!(o, "  {:<40} {:>12}", "conduction", dc.conduction);
+        if let Some(mu) = dc.overlap_deg {
+            line(&mut o, "overlap angle (mean)", mu, "deg");
+        }
+        line(&mut o, "DC load power", dc.p_load_w / 1e3, "kW");
+        let _ = writeln!(o, "\nLine currents");
+        for c in &r.line_currents {
+            let _ = writeln!(
+                o,
+                "  phase {}: RMS {:>9.3} A  fundamental {:>9.3} A  THD {:>7.2} %  TDD {:>7.2} %",
+                c.phase, c.rms_a, c.fundamental_a, c.thd_pct, c.tdd_pct
+            );
+        }
+        let _ = writeln!(
+            o,
+            "  demand current IL for TDD: {:.3} A",
+            r.demand_current_a
+        );
+        let _ = writeln!(
+            o,
+            "  harmonics of phase a above 0.5 % (order: % of fundamental, A RMS)"
+        );
+        for h in r.line_currents[0]
+            .rows
+            .iter()
+            .skip(1)
+            .filter(|h| h.pct_of_fundamental >= 0.5)
+        {
+            let _ = writeln!(
+                o,
+                "    h{:<3} {:>8.3} %  {:>10.3} A",
+                h.order, h.pct_of_fundamental, h.rms
+            );
+        }
+        let _ = writeln!(o, "\nPower (at the supply EMF)");
+        let _ = writeln!(
+            o,
+            "  {:<6} {:>11} {:>11} {:>11} {:>11} {:>7} {:>7} {:>7}",
+            "phase", "P kW", "S kVA", "Q1 kvar", "D kVA", "PF", "DPF", "DF"
+        );
+        for p in r.power.iter().chain(std::iter::once(&r.total)) {
+            let _ = writeln!(
+                o,
+                "  {:<6} {:>11.3} {:>11.3} {:>11.3} {:>11.3} {:>7.4} {:>7.4} {:>7.4}",
+                p.phase,
+                p.p_w / 1e3,
+                p.s_va / 1e3,
+                p.q1_var / 1e3,
+                p.d_va / 1e3,
+                p.power_factor,
+                p.displacement_factor,
+                p.distortion_factor
+            );
+        }
+        let _ = writeln!(o, "\nDevices");
+        let _ = writeln!(
+            o,
+            "  {:<6} {:>9} {:>9} {:>9} {:>10} {:>10} {:>9}",
+            "device", "Iavg A", "Irms A", "Ipk A", "Vrev pk V", "Vfwd pk V", "loss W"
+        );
+        for dv in &r.ratings.devices {
+            let _ = writeln!(
+                o,
+                "  {:<6} {:>9.3} {:>9.3} {:>9.3} {:>10.1} {:>10.1} {:>9.2}{}",
+                dv.name,
+                dv.i_avg_a,
+                dv.i_rms_a,
+                dv.i_peak_a,
+                dv.v_reverse_peak_v,
+                dv.v_forward_block_peak_v,
+                dv.conduction_loss_w,
+                if dv.open { "  (set open)" } else { "" }
+            );
+        }
+        let rt = &r.ratings;
+        let _ = writeln!(
+            o,
+            "  suggested voltage class {:.0} V ({:.2} x peak line voltage; {})",
+            rt.suggested_voltage_class_v, rt.voltage_class_margin, rt.voltage_class_note
+        );
+        line(&mut o, "line reactor current RMS", rt.reactor_i_rms_a, "A");
+        line(
+            &mut o,
+            "line reactor current peak",
+            rt.reactor_i_peak_a,
+            "A",
+        );
+        if let (Some(cr), Some(cp)) = (rt.choke_i_rms_a, rt.choke_i_peak_a) {
+            line(&mut o, "DC choke current RMS", cr, "A");
+            line(&mut o, "DC choke current peak", cp, "A");
+        }
+        line(&mut o, "supply-side VA", rt.transformer_va / 1e3, "kVA");
+        line(
+            &mut o,
+            "utilisation factor (P_dc / VA)",
+            rt.utilisation_factor,
+            "",
+        );
+        if let Some(c) = &rt.capacitor {
+            let _ = writeln!(o, "\nDC-link capacitor");
+            line(&mut o, "ripple current RMS", c.i_rms_a, "A");
+            for h in c
+                .by_order
+                .iter()
+                .filter(|h| h.rms >= 0.02 * c.i_rms_a)
+                .take(8)
+            {
+                let _ = writeln!(
+                    o,
+                    "    at {:>7.1} Hz {:>10.3} A",
+                    h.order as f64 * s.supply.f_hz,
+                    h.rms
+                );
+            }
+            line(&mut o, "ESR loss", c.esr_loss_w, "W");
+            line(&mut o, "temperature rise", c.temp_rise_k, "K");
+            line(&mut o, "life estimate", c.life_estimate_h, "h");
+            let _ = writeln!(o, "  ({})", c.note);
+        }
+        let _ = writeln!(o, "\nTextbook beside exact");
+        let _ = writeln!(
+            o,
+            "  {:<32} {:>12} {:>12} {:>9}  assumption",
+            "quantity", "textbook", "exact", "diff %"
+        );
+        for c in &r.comparisons {
+            let _ = writeln!(
+                o,
+                "  {:<32} {:>12.4} {:>12.4} {:>9.2}  {}",
+                format!("{} [{}]", c.quantity, c.unit),
+                c.textbook,
+                c.exact,
+                c.diff_pct,
+                c.assumption
+            );
+        }
+        let _ = writeln!(
+            o,
+            "\n  solver: {} Newton iterations, residual {:.1e}, {} switching events per period, power balance error {:.1e}",
+            sim.newton_iterations,
+            sim.residual,
+            sim.events.len(),
+            r.power_balance_error
+        );
+        if let Some(t) = &sim.transient {
+            let _ = writeln!(o, "\nPower-up from a discharged bus");
+            line(&mut o, "inrush peak line current", t.inrush_peak_a, "A");
+            match t.charge_time_s {
+                Some(x) => line(&mut o, "time to 90 % of the steady bus", x * 1e3, "ms"),
+                None => {
+                    let _ = writeln!(o, "  bus did not reach 90 % in the window");
+                }
+            }
+            if let Some(b) = t.bypass_at_s {
+                line(&mut o, "precharge bypass closed at", b * 1e3, "ms");
+            }
+        }
+    }
+
     let t = &a.textbook;
     let _ = writeln!(
         o,
@@ -36,36 +225,20 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
     match t.overlap_rad {
         Some(mu) => line(&mut o, "overlap angle", mu.to_degrees(), "deg"),
         None => {
-            let _ = writeln!(o, "  overlap angle                          (no solution)");
+            let _ = writeln!(
+                o,
+                "  overlap angle                            (no solution)"
+            );
         }
     }
     line(&mut o, "line current RMS", t.line_rms_a, "A");
-    line(
-        &mut o,
-        "line current fundamental RMS",
-        t.line_fundamental_a,
-        "A",
-    );
     line(&mut o, "line current THD", t.thd_pct, "%");
-    line(&mut o, "displacement factor", t.displacement_factor, "");
-    line(&mut o, "distortion factor", t.distortion_factor, "");
     line(&mut o, "power factor", t.power_factor, "");
-    line(&mut o, "device average current", t.device_avg_a, "A");
-    line(&mut o, "device RMS current", t.device_rms_a, "A");
-    line(&mut o, "device peak current", t.device_peak_a, "A");
     line(&mut o, "device peak reverse voltage", t.device_piv_v, "V");
-    line(&mut o, "supply VA / Pdo", t.va_per_pdo, "");
-    let _ = writeln!(o, "  harmonics (order: % of fundamental)");
-    for h in t.harmonics.iter().filter(|h| h.order > 1).take(12) {
-        let _ = writeln!(
-            o,
-            "    h{:<3} {:>8.3} %  {:>10.3} A",
-            h.order, h.pct_of_fundamental, h.rms_a
-        );
-    }
     let _ = writeln!(o, "  assumes: {}", t.assumptions.join("; "));
     for w in &a.warnings {
         let _ = writeln!(o, "warning: {w}");
     }
+    let _ = writeln!(o, "\n{SAFETY}");
     o
 }

@@ -359,7 +359,12 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
             i_rms_a: i_rms,
             i_peak_a: if open { 0.0 } else { ci.max },
             v_reverse_peak_v: (-cv.min).max(0.0),
-            v_forward_block_peak_v: cv.max.max(0.0),
+            // Forward blocking is a thyristor rating; a diode's forward voltage is its on-state drop.
+            v_forward_block_peak_v: if s.bridge.kind.is_controlled() {
+                cv.max.max(0.0)
+            } else {
+                0.0
+            },
             conduction_loss_w: v_th * i_avg + r_on * i_rms * i_rms,
             open,
         });

@@ -7,6 +7,9 @@
 
 use serde::{Deserialize, Serialize};
 
+/// Largest scenario file accepted, bytes (a scenario is a few kB).
+pub const MAX_FILE_BYTES: usize = 1 << 20;
+
 /// Current schema version written by this build.
 pub const SCHEMA_VERSION: u32 = 1;
 

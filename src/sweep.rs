@@ -1,0 +1,311 @@
+//! Sweeps: any scenario field varied over a range, with the headline results
+//! at each point, and the headline summary of one analysis.
+
+use crate::analysis::{analyze, Analysis};
+use crate::scenario::Scenario;
+use serde::{Deserialize, Serialize};
+
+/// Headline figures of one analysis (what a user checks first).
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq, Default)]
+pub struct Summary {
+    pub v_dc_avg_v: f64,
+    pub v_dc_ripple_pp_v: f64,
+    pub v_dc_ripple_rms_v: f64,
+    pub ripple_dominant_hz: f64,
+    pub i_dc_avg_a: f64,
+    pub i_line_rms_a: f64,
+    pub i_line_fundamental_a: f64,
+    pub thd_max_pct: f64,
+    pub tdd_max_pct: f64,
+    pub power_factor: f64,
+    pub displacement_factor: f64,
+    pub p_in_w: f64,
+    pub p_dc_w: f64,
+    pub overlap_deg: f64,
+    pub device_i_peak_a: f64,
+    pub device_i_rms_a: f64,
+    pub device_v_peak_v: f64,
+    pub cap_i_rms_a: f64,
+    /// Textbook DC voltage beside the exact one, V.
+    pub textbook_v_dc_v: f64,
+}
+
+/// Field names of [`Summary`] in order (CSV header).
+pub const SUMMARY_FIELDS: [&str; 19] = [
+    "v_dc_avg_v",
+    "v_dc_ripple_pp_v",
+    "v_dc_ripple_rms_v",
+    "ripple_dominant_hz",
+    "i_dc_avg_a",
+    "i_line_rms_a",
+    "i_line_fundamental_a",
+    "thd_max_pct",
+    "tdd_max_pct",
+    "power_factor",
+    "displacement_factor",
+    "p_in_w",
+    "p_dc_w",
+    "overlap_deg",
+    "device_i_peak_a",
+    "device_i_rms_a",
+    "device_v_peak_v",
+    "cap_i_rms_a",
+    "textbook_v_dc_v",
+];
+
+impl Summary {
+    pub fn values(&self) -> [f64; 19] {
+        [
+            self.v_dc_avg_v,
+            self.v_dc_ripple_pp_v,
+            self.v_dc_ripple_rms_v,
+            self.ripple_dominant_hz,
+            self.i_dc_avg_a,
+            self.i_line_rms_a,
+            self.i_line_fundamental_a,
+            self.thd_max_pct,
+            self.tdd_max_pct,
+            self.power_factor,
+            self.displacement_factor,
+            self.p_in_w,
+            self.p_dc_w,
+            self.overlap_deg,
+            self.device_i_peak_a,
+            self.device_i_rms_a,
+            self.device_v_peak_v,
+            self.cap_i_rms_a,
+            self.textbook_v_dc_v,
+        ]
+    }
+}
+
+/// Summarise an analysis; `None` when the simulation failed.
+pub fn summarize(a: &Analysis) -> Option<Summary> {
+    let r = a.results.as_ref()?;
+    let lc = r.line_currents.iter().fold((0.0f64, 0.0f64), |m, c| {
+        (m.0.max(c.rms_a), m.1.max(c.fundamental_a))
+    });
+    Some(Summary {
+        v_dc_avg_v: r.dc.v_avg_v,
+        v_dc_ripple_pp_v: r.dc.ripple_pp_v,
+        v_dc_ripple_rms_v: r.dc.ripple_rms_v,
+        ripple_dominant_hz: r.dc.ripple_dominant_hz,
+        i_dc_avg_a: r.dc.i_avg_a,
+        i_line_rms_a: lc.0,
+        i_line_fundamental_a: lc.1,
+        thd_max_pct: r.thd_max_pct,
+        tdd_max_pct: r.tdd_max_pct,
+        power_factor: r.total.power_factor,
+        displacement_factor: r.total.displacement_factor,
+        p_in_w: r.total.p_w,
+        p_dc_w: r.dc.p_load_w,
+        overlap_deg: r.dc.overlap_deg.unwrap_or(0.0),
+        device_i_peak_a: r
+            .ratings
+            .devices
+            .iter()
+            .map(|d| d.i_peak_a)
+            .fold(0.0, f64::max),
+        device_i_rms_a: r
+            .ratings
+            .devices
+            .iter()
+            .map(|d| d.i_rms_a)
+            .fold(0.0, f64::max),
+        device_v_peak_v: r.ratings.worst_device_voltage_v,
+        cap_i_rms_a: r
+            .ratings
+            .capacitor
+            .as_ref()
+            .map(|c| c.i_rms_a)
+            .unwrap_or(0.0),
+        textbook_v_dc_v: a.textbook.vd_v,
+    })
+}
+
+/// What to vary.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SweepSpec {
+    /// Dotted path of a numeric scenario field, e.g. `dc.load.p_w` or
+    /// `supply.phase_magnitude_pu.1`.
+    pub path: String,
+    pub from: f64,
+    pub to: f64,
+    pub points: usize,
+}
+
+/// One point of a sweep.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SweepPoint {
+    pub x: f64,
+    pub summary: Option<Summary>,
+    /// Why this point has no summary.
+    pub error: Option<String>,
+}
+
+/// Parse `PATH=FROM:TO:N`.
+pub fn parse_vary(text: &str) -> Result<SweepSpec, String> {
+    let (path, range) = text
+        .split_once('=')
+        .ok_or("--vary: expected PATH=FROM:TO:N")?;
+    let parts: Vec<&str> = range.split(':').collect();
+    if parts.len() != 3 {
+        return Err("--vary: expected PATH=FROM:TO:N".into());
+    }
+    let num = |s: &str, what: &str| -> Result<f64, String> {
+        s.trim()
+            .parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite())
+            .ok_or(format!("--vary: {what} is not a number: {s}"))
+    };
+    let points = parts[2]
+        .trim()
+        .parse::<usize>()
+        .map_err(|_| format!("--vary: N is not a whole number: {}", parts[2]))?;
+    if !(1..=10_000).contains(&points) {
+        return Err("--vary: N must be between 1 and 10000".into());
+    }
+    Ok(SweepSpec {
+        path: path.trim().to_string(),
+        from: num(parts[0], "FROM")?,
+        to: num(parts[1], "TO")?,
+        points,
+    })
+}
+
+/// A copy of `s` with the numeric field at `path` set to `value`.
+pub fn with_value(s: &Scenario, path: &str, value: f64) -> Result<Scenario, String> {
+    let mut v = serde_json::to_value(s).map_err(|e| e.to_string())?;
+    let mut cur = &mut v;
+    for key in path.split('.') {
+        cur = match cur {
+            serde_json::Value::Object(m) => {
+                m.get_mut(key).ok_or(format!("{path}: no field '{key}'"))?
+            }
+            serde_json::Value::Array(a) => {
+                let i: usize = key
+                    .parse()
+                    .map_err(|_| format!("{path}: '{key}' is not an index"))?;
+                a.get_mut(i)
+                    .ok_or(format!("{path}: index {i} out of range"))?
+            }
+            _ => return Err(format!("{path}: '{key}' is not inside an object")),
+        };
+    }
+    match cur {
+        serde_json::Value::Number(_) => {}
+        _ => return Err(format!("{path}: not a numeric field")),
+    }
+    let rounded_int = value.round();
+    *cur = if cur.is_u64() || cur.is_i64() {
+        serde_json::json!(rounded_int as i64)
+    } else {
+        serde_json::json!(value)
+    };
+    crate::scenario::from_json(&v.to_string())
+}
+
+/// The x values of a sweep.
+pub fn xs(spec: &SweepSpec) -> Vec<f64> {
+    if spec.points == 1 {
+        return vec![spec.from];
+    }
+    (0..spec.points)
+        .map(|i| spec.from + (spec.to - spec.from) * i as f64 / (spec.points - 1) as f64)
+        .collect()
+}
+
+/// Run one sweep point.
+pub fn point(s: &Scenario, path: &str, x: f64) -> SweepPoint {
+    match with_value(s, path, x).and_then(|sc| analyze(&sc).map_err(|e| e.to_string())) {
+        Ok(a) => {
+            let summary = summarize(&a);
+            let error = if summary.is_none() {
+                a.warnings.first().cloned()
+            } else {
+                None
+            };
+            SweepPoint { x, summary, error }
+        }
+        Err(e) => SweepPoint {
+            x,
+            summary: None,
+            error: Some(e),
+        },
+    }
+}
+
+/// Run a sweep (every point independent; a failing point carries its error).
+pub fn sweep(s: &Scenario, spec: &SweepSpec) -> Result<Vec<SweepPoint>, String> {
+    // Check the path once before running.
+    with_value(s, &spec.path, spec.from)?;
+    Ok(xs(spec)
+        .into_iter()
+        .map(|x| point(s, &spec.path, x))
+        .collect())
+}
+
+/// CSV of a sweep: the varied path, then the summary fields.
+pub fn to_csv(spec: &SweepSpec, pts: &[SweepPoint]) -> String {
+    let mut out = String::new();
+    out.push_str(&spec.path);
+    for f in SUMMARY_FIELDS {
+        out.push(',');
+        out.push_str(f);
+    }
+    out.push_str(",error\n");
+    for p in pts {
+        out.push_str(&format!("{}", p.x));
+        match &p.summary {
+            Some(s) => {
+                for v in s.values() {
+                    out.push_str(&format!(",{v}"));
+                }
+                out.push_str(",\n");
+            }
+            None => {
+                for _ in SUMMARY_FIELDS {
+                    out.push(',');
+                }
+                let e = p
+                    .error
+                    .clone()
+                    .unwrap_or_default()
+                    .replace(['"', '\n'], " ");
+                out.push_str(&format!(",\"{e}\"\n"));
+            }
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn vary_parses_and_rejects() {
+        let s = parse_vary("dc.load.p_w=1000:5000:5").unwrap();
+        assert_eq!(s.points, 5);
+        assert_eq!(xs(&s), vec![1000.0, 2000.0, 3000.0, 4000.0, 5000.0]);
+        assert!(parse_vary("dc.load.p_w=1:2").is_err());
+        assert!(parse_vary("x=a:2:3").is_err());
+    }
+
+    #[test]
+    fn with_value_sets_nested_and_indexed_fields() {
+        let s = Scenario::default();
+        let t = with_value(&s, "supply.phase_magnitude_pu.1", 0.95).unwrap();
+        assert_eq!(t.supply.phase_magnitude_pu[1], 0.95);
+        let t = with_value(&s, "dc.load.p_w", 12e3).unwrap();
+        assert_eq!(
+            t.dc.load,
+            crate::scenario::DcLoad::ConstantPower { p_w: 12e3 }
+        );
+        assert!(with_value(&s, "dc.nothing", 1.0)
+            .unwrap_err()
+            .contains("nothing"));
+        assert!(with_value(&s, "name", 1.0).is_err());
+    }
+}
