@@ -19,6 +19,8 @@ pub struct Analysis {
     pub sim: Option<crate::sim::SimResult>,
     /// Results computed from the simulation.
     pub results: Option<crate::results::Results>,
+    /// Grid compliance at the PCC (when the results exist).
+    pub compliance: Option<crate::compliance::Compliance>,
     pub warnings: Vec<String>,
 }
 
@@ -92,6 +94,7 @@ pub fn alpha_rad(s: &Scenario) -> f64 {
 /// Analyse one scenario.
 pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
     let derived = params::derive(s)?;
+    crate::compliance::validate(&s.compliance)?;
     let id = textbook_dc_current(s, &derived).unwrap_or(0.0);
     let textbook = textbook::evaluate(&TextbookInput {
         family: family(s.bridge.kind),
@@ -114,12 +117,23 @@ pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
             (None, None)
         }
     };
+    let compliance = match (&sim, &results) {
+        (Some(sim), Some(r)) => Some(crate::compliance::assess_with_fixes(
+            s,
+            &derived,
+            sim,
+            r,
+            &s.compliance,
+        )),
+        _ => None,
+    };
     Ok(Analysis {
         version: env!("CARGO_PKG_VERSION").to_string(),
         derived,
         textbook_i_d_a: id,
         textbook,
         sim,
+        compliance,
         results,
         warnings,
     })

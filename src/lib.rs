@@ -9,6 +9,7 @@
 #![allow(clippy::needless_range_loop, clippy::map_entry)]
 
 pub mod analysis;
+pub mod compliance;
 pub mod examples;
 pub mod params;
 pub mod report;

@@ -26,6 +26,9 @@ pub struct Scenario {
     pub bridge: Bridge,
     pub dc: DcSide,
     pub analysis: AnalysisSettings,
+    /// Grid compliance settings (see `crate::compliance`).
+    #[serde(default)]
+    pub compliance: crate::compliance::ComplianceSettings,
 }
 
 impl Default for Scenario {
@@ -39,6 +42,7 @@ impl Default for Scenario {
             bridge: Bridge::default(),
             dc: DcSide::default(),
             analysis: AnalysisSettings::default(),
+            compliance: Default::default(),
         }
     }
 }

@@ -1,0 +1,309 @@
+//! The simulator against published closed forms and its own invariants.
+//!
+//! Sources: N. Mohan, T. M. Undeland, W. P. Robbins, *Power Electronics:
+//! Converters, Applications and Design*, 3rd ed., Wiley 2003 (ch. 5: diode
+//! bridges; ch. 6: thyristor converters).  Section numbers quoted from memory.
+
+use rectifield::analysis::analyze;
+use rectifield::scenario::{BridgeKind, DcLoad, LineReactor, Scenario, SourceImpedance};
+use std::f64::consts::{PI, SQRT_2};
+
+/// Stiff source, near-constant DC current (L/R = 50 s): the textbook's assumptions.
+fn ideal(kind: BridgeKind, alpha_deg: f64) -> Scenario {
+    let mut s = Scenario::default();
+    s.supply.v_ll_rms_v = 440.0;
+    s.supply.f_hz = 50.0;
+    s.source.impedance = SourceImpedance::Direct {
+        r_ohm: 0.0,
+        l_h: 0.0,
+    };
+    s.source.reactor = LineReactor::None;
+    s.bridge.kind = kind;
+    s.bridge.alpha_deg = alpha_deg;
+    s.dc.cap_f = 0.0;
+    s.dc.load = DcLoad::Rle {
+        r_ohm: 5.0,
+        l_h: 250.0,
+        e_v: 0.0,
+    };
+    s.analysis.rated_power_w = 40e3;
+    s.analysis.h_max = 100;
+    s
+}
+
+fn rel(a: f64, b: f64) -> f64 {
+    (a - b).abs() / b.abs()
+}
+
+#[test]
+fn six_step_harmonics_are_i1_over_h_and_match_a_direct_fourier_sum() {
+    // Mohan 3rd ed., sec. 5-6: with Ls = 0 and constant Id the line current is the
+    // six-step wave, I_h = I_1 / h for h = 6k +- 1, zero otherwise.
+    let s = ideal(BridgeKind::SixPulseDiode, 0.0);
+    let a = analyze(&s).unwrap();
+    let sim = a.sim.as_ref().unwrap();
+    let ia = &sim.signals[sim.roles.line_i[0]];
+    let i1 = ia.harmonics[0].rms;
+    for h in 2..=49u32 {
+        let expect = if h % 6 == 1 || h % 6 == 5 {
+            i1 / h as f64
+        } else {
+            0.0
+        };
+        let got = ia.harmonics[h as usize - 1].rms;
+        assert!(
+            (got - expect).abs() < 1e-4 * i1,
+            "h{h}: {got} vs {expect} (I1 {i1})"
+        );
+    }
+    // Oracle: a direct Fourier sum over a fine uniform grid of the same exact
+    // waveform (20000 samples per period; the jumps bound its error by ~I1/N).
+    let mut fine = s.clone();
+    fine.analysis.grid_points = 20_000;
+    let b = analyze(&fine).unwrap();
+    let simf = b.sim.as_ref().unwrap();
+    let x = &simf.signals[simf.roles.line_i[0]].samples;
+    let n = x.len() - 1; // last sample repeats t = T
+    for h in [1u32, 5, 7, 11, 13, 23, 25, 35, 37, 47, 49] {
+        let (mut c, mut sn) = (0.0, 0.0);
+        for (k, v) in x.iter().take(n).enumerate() {
+            let th = 2.0 * PI * h as f64 * k as f64 / n as f64;
+            c += v * th.cos();
+            sn += v * th.sin();
+        }
+        let rms_direct = (c * c + sn * sn).sqrt() * 2.0 / n as f64 / SQRT_2;
+        let fast = ia.harmonics[h as usize - 1].rms;
+        assert!(
+            (rms_direct - fast).abs() < 1e-4 * i1,
+            "h{h}: direct {rms_direct} fast {fast}"
+        );
+    }
+}
+
+#[test]
+fn six_pulse_ideal_figures() {
+    // Mohan 3rd ed., sec. 5-6 and ch. 5 summary: Vdo = 1.35 V_LL; I_s = sqrt(2/3) Id;
+    // DF = 3/pi; device Iavg = Id/3, Irms = Id/sqrt3, PIV = sqrt2 V_LL; VA = 1.047 Pdo.
+    let a = analyze(&ideal(BridgeKind::SixPulseDiode, 0.0)).unwrap();
+    let r = a.results.as_ref().unwrap();
+    let id = r.dc.i_avg_a;
+    assert!(rel(r.dc.v_avg_v, 3.0 * SQRT_2 / PI * 440.0) < 1e-3);
+    assert!(rel(r.line_currents[0].rms_a, (2.0f64 / 3.0).sqrt() * id) < 1e-3);
+    assert!(rel(r.total.distortion_factor, 3.0 / PI) < 1e-3);
+    assert!(
+        rel(r.total.power_factor, 3.0 / PI) < 1e-3,
+        "PF {}",
+        r.total.power_factor
+    );
+    for d in &r.ratings.devices {
+        assert!(
+            rel(d.i_avg_a, id / 3.0) < 1e-3,
+            "{} avg {}",
+            d.name,
+            d.i_avg_a
+        );
+        assert!(rel(d.i_rms_a, id / 3f64.sqrt()) < 1e-3);
+        assert!(rel(d.v_reverse_peak_v, SQRT_2 * 440.0) < 1e-3);
+    }
+    // VA / Pdo = pi/3 = 1.047 with Pdo = Vdo Id.
+    let pdo = 3.0 * SQRT_2 / PI * 440.0 * id;
+    assert!(rel(r.ratings.transformer_va / pdo, 1.047) < 1e-3);
+    // THD over h2..h100 versus the infinite-sum 31.08 %: the truncated sum.
+    let trunc: f64 = (2..=100)
+        .filter(|h| h % 6 == 1 || h % 6 == 5)
+        .map(|h| 1.0 / (h * h) as f64)
+        .sum::<f64>()
+        .sqrt()
+        * 100.0;
+    assert!(
+        (r.thd_max_pct - trunc).abs() < 0.01,
+        "{} vs {trunc}",
+        r.thd_max_pct
+    );
+}
+
+#[test]
+fn thyristor_bridge_follows_cos_alpha_and_displacement() {
+    // Mohan 3rd ed., sec. 6-4: Vd = 1.35 V_LL cos(alpha); DPF = cos(alpha) with Ls = 0.
+    for alpha in [15.0f64, 45.0, 75.0] {
+        let a = analyze(&ideal(BridgeKind::SixPulseThyristor, alpha)).unwrap();
+        let r = a.results.as_ref().unwrap();
+        let c = alpha.to_radians().cos();
+        assert!(
+            rel(r.dc.v_avg_v, 3.0 * SQRT_2 / PI * 440.0 * c) < 1e-3,
+            "alpha {alpha}: {}",
+            r.dc.v_avg_v
+        );
+        assert!((r.total.displacement_factor - c).abs() < 1e-3);
+        // PF = DPF x DF for a balanced supply (consistency).
+        assert!(
+            (r.total.power_factor - r.total.displacement_factor * r.total.distortion_factor).abs()
+                < 1e-6
+        );
+    }
+}
+
+#[test]
+fn inverting_thyristor_bridge_returns_power() {
+    // Mohan 3rd ed., sec. 6-5 (inverter mode): alpha > 90 deg with a negative
+    // back-EMF; Vd = 1.35 V cos(alpha) - 3 w Ls Id / pi < 0 and power flows to the supply.
+    let mut s = ideal(BridgeKind::SixPulseThyristor, 140.0);
+    s.source.impedance = SourceImpedance::Direct {
+        r_ohm: 0.0,
+        l_h: 0.3e-3,
+    };
+    s.dc.load = DcLoad::Rle {
+        r_ohm: 0.5,
+        l_h: 0.2,
+        e_v: -500.0,
+    };
+    let a = analyze(&s).unwrap();
+    let r = a.results.as_ref().unwrap();
+    let id = r.dc.i_avg_a;
+    let w = 2.0 * PI * 50.0;
+    let expect = 3.0 * SQRT_2 / PI * 440.0 * 140f64.to_radians().cos() - 3.0 * w * 0.3e-3 * id / PI;
+    assert!(id > 10.0, "conducts: {id}");
+    assert!(
+        rel(r.dc.v_avg_v, expect) < 5e-3,
+        "{} vs {expect}",
+        r.dc.v_avg_v
+    );
+    assert!(
+        r.total.p_w < 0.0,
+        "power returns to the supply: {}",
+        r.total.p_w
+    );
+}
+
+#[test]
+fn three_pulse_ideal_figures() {
+    // Three-pulse midpoint: Vdo = 3 sqrt6/(2 pi) V_ph = 1.17 V_ph; each device
+    // carries a 120-degree block: Iavg = Id/3, Irms = Id/sqrt3; PIV = sqrt2 V_LL
+    // (Mohan 3rd ed., ch. 5 problems on the midpoint connection; Lander,
+    // Power Electronics, 3rd ed., ch. 4).
+    let a = analyze(&ideal(BridgeKind::ThreePulseDiode, 0.0)).unwrap();
+    let r = a.results.as_ref().unwrap();
+    let v_ph = 440.0 / 3f64.sqrt();
+    let id = r.dc.i_avg_a;
+    assert!(
+        rel(r.dc.v_avg_v, 3.0 * 6f64.sqrt() / (2.0 * PI) * v_ph) < 1e-3,
+        "{}",
+        r.dc.v_avg_v
+    );
+    for d in &r.ratings.devices {
+        assert!(rel(d.i_avg_a, id / 3.0) < 1e-3);
+        assert!(rel(d.i_rms_a, id / 3f64.sqrt()) < 1e-3);
+        assert!(rel(d.v_reverse_peak_v, SQRT_2 * 440.0) < 1e-3);
+    }
+}
+
+#[test]
+fn twelve_pulse_ideal_figures() {
+    // Two six-pulse bridges on secondaries 30 degrees apart: the primary current
+    // has only h = 12k +- 1 with I_h = I_1/h (Mohan 3rd ed., ch. 5 on twelve-pulse
+    // connections); in series the DC voltage is 2 x 1.35 V_LL.
+    let a = analyze(&ideal(BridgeKind::TwelvePulseSeries, 0.0)).unwrap();
+    let r = a.results.as_ref().unwrap();
+    assert!(rel(r.dc.v_avg_v, 2.0 * 3.0 * SQRT_2 / PI * 440.0) < 1e-3);
+    let rows = &r.line_currents[0].rows;
+    let i1 = rows[0].rms;
+    for h in 2..=49u32 {
+        let expect = if h % 12 == 1 || h % 12 == 11 {
+            i1 / h as f64
+        } else {
+            0.0
+        };
+        assert!(
+            (rows[h as usize - 1].rms - expect).abs() < 2e-4 * i1,
+            "h{h}: {} vs {expect}",
+            rows[h as usize - 1].rms
+        );
+    }
+    // Parallel through an interphase reactor: Vdo = 1.35 V_LL.
+    let b = analyze(&ideal(BridgeKind::TwelvePulseParallel, 0.0)).unwrap();
+    let rb = b.results.as_ref().unwrap();
+    assert!(
+        rel(rb.dc.v_avg_v, 3.0 * SQRT_2 / PI * 440.0) < 2e-3,
+        "{}",
+        rb.dc.v_avg_v
+    );
+}
+
+fn drive() -> Scenario {
+    // A drive front end of our own: 400 V 50 Hz, 3 % reactor, 2.2 mF bus, 45 kW.
+    Scenario::default()
+}
+
+#[test]
+fn invariants_power_balance_and_kcl() {
+    for s in [
+        drive(),
+        ideal(BridgeKind::SixPulseThyristor, 30.0),
+        ideal(BridgeKind::TwelvePulseSeries, 0.0),
+    ] {
+        let a = analyze(&s).unwrap();
+        let r = a.results.as_ref().unwrap();
+        // AC input = DC output + losses within 0.1 %.
+        assert!(
+            r.power_balance_error.abs() < 1e-3,
+            "{}: {}",
+            s.name,
+            r.power_balance_error
+        );
+        // Three-wire supply: the line currents sum to zero (leakage level).
+        let i_scale = r.line_currents[0].rms_a;
+        assert!(
+            r.line_current_sum_max_a < 1e-4 * i_scale,
+            "{}: {}",
+            s.name,
+            r.line_current_sum_max_a
+        );
+        // P = mean(v i) equals the fundamental power P1 for a sinusoidal supply.
+        assert!(rel(r.total.p_w, r.total.p1_w) < 1e-6);
+    }
+}
+
+#[test]
+fn refining_the_grid_moves_results_less_than_0_05_percent() {
+    let base = drive();
+    let mut fine = base.clone();
+    fine.analysis.grid_points = base.analysis.grid_points * 4;
+    let a = analyze(&base).unwrap();
+    let b = analyze(&fine).unwrap();
+    let (ra, rb) = (a.results.unwrap(), b.results.unwrap());
+    for (x, y, what) in [
+        (ra.dc.v_avg_v, rb.dc.v_avg_v, "DC average"),
+        (ra.dc.ripple_pp_v, rb.dc.ripple_pp_v, "ripple p-p"),
+        (
+            ra.line_currents[0].rms_a,
+            rb.line_currents[0].rms_a,
+            "line RMS",
+        ),
+        (ra.thd_max_pct, rb.thd_max_pct, "THD"),
+        (ra.total.power_factor, rb.total.power_factor, "PF"),
+    ] {
+        assert!(rel(x, y) < 5e-4, "{what}: {x} vs {y}");
+    }
+}
+
+#[test]
+fn thd_from_table_equals_thd_from_rms() {
+    // sqrt(I_rms^2 - I1^2)/I1 counts every order; the table stops at h_max = 100,
+    // so use a smooth current (large reactor) whose content above h100 is tiny.
+    let mut s = drive();
+    s.source.reactor = LineReactor::Percent {
+        z_pct: 8.0,
+        x_over_r: 30.0,
+    };
+    s.analysis.h_max = 100;
+    let a = analyze(&s).unwrap();
+    let r = a.results.as_ref().unwrap();
+    let c = &r.line_currents[0];
+    let from_rms =
+        (c.rms_a * c.rms_a - c.fundamental_a * c.fundamental_a).sqrt() / c.fundamental_a * 100.0;
+    assert!(
+        (c.thd_pct - from_rms).abs() < 0.05,
+        "{} vs {from_rms}",
+        c.thd_pct
+    );
+}
