@@ -135,6 +135,18 @@ pub enum Verdict {
     NotApplicable,
 }
 
+impl Verdict {
+    /// The serde name ("pass", "fail", "incomplete", "not_applicable").
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Verdict::Pass => "pass",
+            Verdict::Fail => "fail",
+            Verdict::Incomplete => "incomplete",
+            Verdict::NotApplicable => "not_applicable",
+        }
+    }
+}
+
 /// One value against one limit.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Check {
@@ -974,7 +986,7 @@ pub fn assess(
         && i1max > 0.0
         && (i1max - i1min) <= 0.02 * i1max;
     if balanced {
-        conditions.push("Balanced three-phase equipment: Table 3 applies (the tables for balanced equipment under specified conditions are not applied here; Table 3 is the general one).".into());
+        conditions.push("Balanced three-phase equipment: Table 3 is its table (the tables for balanced equipment under specified conditions are not applied).".into());
     } else {
         applicable = false;
         conditions.push("Not balanced three-phase equipment as simulated (unbalanced supply, an open phase or device, or a half-wave bridge): Table 3 is for balanced three-phase equipment; the table for other equipment is not implemented.".into());

@@ -212,6 +212,10 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
         }
     }
 
+    if let Some(c) = &a.compliance {
+        compliance(&mut o, c);
+    }
+
     let t = &a.textbook;
     let _ = writeln!(
         o,
@@ -241,4 +245,109 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
     }
     let _ = writeln!(o, "\n{SAFETY}");
     o
+}
+
+/// The "Compliance" section: verdicts, the failing checks (or the closest
+/// ones), the fixes found, and the notes on sources.
+fn compliance(o: &mut String, c: &crate::compliance::Compliance) {
+    use crate::compliance::Check;
+    let v = |x: crate::compliance::Verdict| x.as_str().to_string();
+    let _ = writeln!(o, "\nCompliance (verdict: {})", v(c.verdict));
+    let ie = &c.ieee519;
+    let _ = writeln!(
+        o,
+        "  {}: {}; Isc/IL = {:.1} ({}), IL = {:.2} A",
+        ie.edition,
+        v(ie.verdict),
+        ie.isc_over_il,
+        ie.row,
+        ie.i_l_a
+    );
+    let shown = |o: &mut String, checks: &[Check]| {
+        let mut list: Vec<&Check> = checks.iter().filter(|k| !k.pass).collect();
+        if list.is_empty() {
+            // Nothing fails: the three closest to their limits.
+            let mut all: Vec<&Check> = checks.iter().filter(|k| k.limit > 0.0).collect();
+            all.sort_by(|a, b| (a.margin / a.limit).total_cmp(&(b.margin / b.limit)));
+            list = all.into_iter().take(3).collect();
+        }
+        for k in list.iter().take(12) {
+            let _ = writeln!(
+                o,
+                "    {:<10} {:>9.3} limit {:>7.3} margin {:>9.3} {} ({}) {}",
+                k.name,
+                k.value,
+                k.limit,
+                k.margin,
+                k.unit,
+                k.phase,
+                if k.pass { "pass" } else { "FAIL" }
+            );
+        }
+    };
+    if let Some(p) = &ie.pulse_allowance {
+        let _ = writeln!(
+            o,
+            "  pulse number {}: characteristic limits x {:.3} {}",
+            p.pulse_number,
+            p.multiplier,
+            if p.applied {
+                "applied"
+            } else {
+                "not applied (non-characteristic harmonics above 25 % of their limits)"
+            }
+        );
+    }
+    let _ = writeln!(
+        o,
+        "  current ({}): {}",
+        ie.current_table,
+        v(ie.current_verdict)
+    );
+    shown(o, &ie.current);
+    let _ = writeln!(
+        o,
+        "  PCC voltage ({}): {}",
+        ie.voltage_table,
+        v(ie.voltage_verdict)
+    );
+    shown(o, &ie.voltage);
+    let iec = &c.iec61000_3_12;
+    let _ = writeln!(
+        o,
+        "  {}: {}; Rsce = {:.1} ({})",
+        iec.edition,
+        v(iec.verdict),
+        iec.rsce,
+        iec.rsce_row
+    );
+    if iec.applicable {
+        shown(o, &iec.checks);
+    } else {
+        for cond in &iec.conditions {
+            let _ = writeln!(o, "    {cond}");
+        }
+    }
+    if let Some(f) = &c.fixes {
+        let _ = writeln!(o, "  what would pass:");
+        for t in &f.tried {
+            let _ = writeln!(
+                o,
+                "    {} {:.1} %: {} (mean DC bus {})",
+                t.kind,
+                t.size_pct,
+                t.verdict.map(v).unwrap_or_else(|| t.note.clone()),
+                t.v_dc_change_v
+                    .map(|x| format!("{x:+.1} V"))
+                    .unwrap_or_else(|| "-".into())
+            );
+        }
+        if f.smallest_reactor.is_none() && f.smallest_choke.is_none() {
+            let _ = writeln!(o, "    no step of the lists passes");
+        }
+    }
+    for n in c.notes.iter().chain(&c.from_memory_notes) {
+        let _ = writeln!(o, "  note: {n}");
+    }
+    let _ = writeln!(o, "  {}", c.governing_note);
 }
