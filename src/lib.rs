@@ -11,6 +11,7 @@
 pub mod analysis;
 pub mod compliance;
 pub mod examples;
+pub mod field;
 pub mod params;
 pub mod report;
 pub mod results;
