@@ -121,7 +121,8 @@ ensure_node() {
     apt_ensure nodejs npm
   fi
   local stamp="node_modules/.rectifield-lock"
-  if [ -f "$stamp" ] && cmp -s package-lock.json "$stamp" && [ -x node_modules/.bin/wasm-opt ]; then
+  if [ -f "$stamp" ] && cmp -s package-lock.json "$stamp" && [ -x node_modules/.bin/wasm-opt ] \
+    && [ -f node_modules/uplot/dist/uPlot.iife.min.js ]; then
     return 0
   fi
   say "npm ci (pinned: package-lock.json)"
@@ -187,6 +188,12 @@ assemble_dist() {
   cp -R www/. "$DIST.tmp/"
   cp "$WEB/${CRATE}_wasm.js" "$DIST.tmp/${CRATE}_wasm.js"
   cp "$WEB/bindgen/${CRATE}.js" "$DIST.tmp/${CRATE}_glue.js"
+  # The plotting library, vendored from npm (pinned in package-lock.json), with its licence.
+  local up=node_modules/uplot
+  [ -f "$up/dist/uPlot.iife.min.js" ] || die "$up missing: run npm ci (./build.sh installs it)"
+  mkdir -p "$DIST.tmp/vendor"
+  cp "$up/dist/uPlot.iife.min.js" "$up/dist/uPlot.min.css" "$DIST.tmp/vendor/"
+  cp "$up/LICENSE" "$DIST.tmp/vendor/uPlot.LICENSE"
   rm -rf "$DIST"
   mv "$DIST.tmp" "$DIST"
   [ -f "$DIST/index.html" ] || die "www/index.html is missing"
