@@ -9,6 +9,7 @@ const HELP: &str =
 usage:
   rectifield solve FILE [--json]                 analyse a scenario (FILE, or - for standard input)
   rectifield sweep FILE --vary PATH=FROM:TO:N    CSV of the headline results over a sweep
+  rectifield check FILE [--json]                 grid-compliance verdict (exit status 1 when it fails)
   rectifield examples DIR                        write the built-in example scenarios to DIR
   rectifield example                             print the default scenario as JSON
   rectifield COMMAND --help                      help for one command
@@ -32,6 +33,11 @@ const HELP_SWEEP: &str = "usage: rectifield sweep FILE --vary PATH=FROM:TO:N
   FROM:TO:N  N evenly spaced values from FROM to TO (N = 1..10000)
   prints CSV: the varied value, then the headline results; a point that cannot
   be solved has its reason in the last column";
+
+const HELP_CHECK: &str = "usage: rectifield check FILE [--json]
+  judges the scenario against IEEE Std 519-2014 (and IEC 61000-3-12 where it
+  applies) at the point of common coupling, and searches the standard reactor
+  and choke steps for what would pass; exit status 1 when a limit is exceeded";
 
 const HELP_EXAMPLES: &str = "usage: rectifield examples DIR
   writes each built-in example scenario to DIR/<name>.json (DIR is created)";
@@ -135,6 +141,36 @@ fn cmd_examples(args: &[String]) -> CliResult {
     Ok((out.trim_end().to_string(), 0))
 }
 
+fn cmd_check(args: &[String]) -> CliResult {
+    if args.iter().any(|a| a == "--help" || a == "-h") {
+        return Ok((HELP_CHECK.into(), 0));
+    }
+    let (mut s, rest) = load_scenario(args)?;
+    let json = rest.iter().any(|a| a == "--json");
+    if let Some(bad) = rest.iter().find(|a| *a != "--json") {
+        return Err((2, format!("check: unknown option {bad}")));
+    }
+    s.compliance.search_fixes = true;
+    let a = rectifield::analyze(&s).map_err(|e| (2, e.to_string()))?;
+    let c = a.compliance.as_ref().ok_or((
+        3,
+        format!("check: no compliance result ({})", a.warnings.join("; ")),
+    ))?;
+    let code = if c.verdict == rectifield::compliance::Verdict::Fail {
+        1
+    } else {
+        0
+    };
+    if json {
+        Ok((
+            serde_json::to_string_pretty(c).map_err(|e| (2, e.to_string()))?,
+            code,
+        ))
+    } else {
+        Ok((rectifield::report::compliance_text(&s, &a), code))
+    }
+}
+
 fn run(args: &[String]) -> CliResult {
     match args.first().map(String::as_str) {
         None | Some("--help") | Some("-h") | Some("help") => Ok((HELP.to_string(), 0)),
@@ -145,6 +181,7 @@ fn run(args: &[String]) -> CliResult {
         )),
         Some("solve") => cmd_solve(&args[1..]),
         Some("sweep") => cmd_sweep(&args[1..]),
+        Some("check") => cmd_check(&args[1..]),
         Some("examples") => cmd_examples(&args[1..]),
         Some(other) => Err((2, format!("unknown command: {other} (try --help)"))),
     }

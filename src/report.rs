@@ -247,6 +247,19 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
     o
 }
 
+/// The compliance verdict alone (the `check` command's report).
+pub fn compliance_text(s: &Scenario, a: &Analysis) -> String {
+    let mut o = String::new();
+    let _ = writeln!(o, "Rectifield {} — {} — grid compliance", a.version, s.name);
+    match &a.compliance {
+        Some(c) => compliance(&mut o, c),
+        None => {
+            let _ = writeln!(o, "no compliance result: {}", a.warnings.join("; "));
+        }
+    }
+    o
+}
+
 /// The "Compliance" section: verdicts, the failing checks (or the closest
 /// ones), the fixes found, and the notes on sources.
 fn compliance(o: &mut String, c: &crate::compliance::Compliance) {

@@ -294,7 +294,7 @@ impl Default for AnalysisSettings {
     fn default() -> Self {
         AnalysisSettings {
             h_max: 50,
-            grid_points: 720,
+            grid_points: 1024,
             rated_power_w: 0.0,
             demand_current_a: 0.0,
             transient_cycles: 0,

@@ -518,8 +518,9 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         DcLoad::ConstantPower { p_w } => {
             // Linearised about the mean bus voltage V0 (updated by the caller):
             // i = 2 P / V0 - (P / V0^2) v.
+            // Typical drive buses settle near 0.93 of the peak line voltage.
             let v0 = if v_bus_guess > 0.0 {
-                v_bus_guess
+                v_bus_guess * 0.935 / 0.97
             } else {
                 1.35 * v_ll
             };

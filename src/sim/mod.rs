@@ -3,6 +3,7 @@
 
 pub mod build;
 pub mod circuit;
+pub mod fft;
 pub mod linalg;
 pub mod solver;
 
@@ -19,6 +20,10 @@ use std::f64::consts::PI;
 /// rated current, see `build`), or devices chatter at leakage level.  Event
 /// times are located at the exact zero crossing whatever this value.
 pub const TOL_REL: f64 = 2e-5;
+
+/// The constant-power load's incremental conductance `P / Vg^2` is rebuilt
+/// when the mean bus voltage has moved more than this fraction from `Vg`.
+const CPL_REBUILD: f64 = 0.02;
 
 /// One harmonic of a signal.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -89,6 +94,9 @@ pub struct SimResult {
     pub p_loss_w: f64,
     pub newton_iterations: usize,
     pub residual: f64,
+    /// Solver effort: periods marched and topologies built (all engines of this solve).
+    pub periods_marched: usize,
+    pub topologies_built: usize,
     pub topologies: usize,
     pub warnings: Vec<String>,
     pub transient: Option<Transient>,
@@ -167,7 +175,7 @@ fn steady(
     s: &Scenario,
     cfg: &SimConfig,
     period: f64,
-) -> Result<(Engine, solver::SteadyState, usize), SolveError> {
+) -> Result<(Engine, solver::SteadyState, (usize, usize)), SolveError> {
     let mut eng = Engine::new(
         built.circuit.clone(),
         period,
@@ -179,6 +187,7 @@ fn steady(
     let x_guess = built.x_guess.clone();
     let mut st = solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 2, 40)?;
     let mut outer = 0;
+    let mut retired = (0usize, 0usize);
     if let (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
         // Outer loop on the linearisation point V0 = mean bus voltage.  The
         // load is i = a - g v with g = P / Vg^2 fixed at the point Vg the
@@ -200,11 +209,11 @@ fn steady(
                 ));
             }
             let converged = (mean_v - v0_prev).abs() < 1e-9 * mean_v;
-            if converged && (mean_v - v_g).abs() < 0.01 * v_g {
+            if converged && (mean_v - v_g).abs() < CPL_REBUILD * v_g {
                 break;
             }
             v0_prev = mean_v;
-            if (mean_v - v_g).abs() >= 0.01 * v_g {
+            if (mean_v - v_g).abs() >= CPL_REBUILD * v_g {
                 v_g = mean_v;
                 let mut c = eng.circuit.clone();
                 if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
@@ -213,6 +222,8 @@ fn steady(
                 c.param = p_w / mean_v + p_w / mean_v;
                 built.circuit = c.clone();
                 let (it, vt) = (eng.i_tol_a, eng.v_tol_v);
+                retired.0 += eng.n_runs;
+                retired.1 += eng.n_topologies_built;
                 eng = Engine::new(c, period, cfg.grid_points, it, vt);
             } else {
                 let g = p_w / (v_g * v_g);
@@ -224,7 +235,8 @@ fn steady(
             st = solver::solve_periodic_from(&mut eng, &x0, &on0, &built.x_scale, 40)?;
         }
     }
-    Ok((eng, st, outer))
+    let _ = outer;
+    Ok((eng, st, retired))
 }
 
 fn mean_of(
@@ -242,6 +254,7 @@ fn mean_of(
             record: true,
             sensitivity: false,
             contactor_close: None,
+            coarse: true,
         },
     )?;
     let mut acc = 0.0;
@@ -260,7 +273,7 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
     let cfg = SimConfig::from_scenario(s);
     let period = 1.0 / s.supply.f_hz;
     let mut built = build::build(s, d);
-    let (mut eng, st, _outer) = steady(&mut built, s, &cfg, period)?;
+    let (mut eng, st, stats) = steady(&mut built, s, &cfg, period)?;
     let run = eng.run(
         &st.x0,
         &st.on0,
@@ -270,8 +283,39 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
             record: true,
             sensitivity: false,
             contactor_close: None,
+            coarse: false,
         },
     )?;
+    // The recording period marches the fine grid: confirm it is periodic (a
+    // conduction pulse shorter than a coarse stride would show here), else
+    // solve again on the fine grid from where it ended.
+    let mismatch = run
+        .x_end
+        .iter()
+        .zip(&st.x0)
+        .zip(&built.x_scale)
+        .map(|((a, b), sc)| ((a - b) / sc).abs())
+        .fold(0.0, f64::max);
+    let (run, st) = if mismatch > 1e-7 {
+        eng.coarse_newton = false;
+        let st2 =
+            solver::solve_periodic_from(&mut eng, &run.x_end, &run.on_end, &built.x_scale, 40)?;
+        let run2 = eng.run(
+            &st2.x0,
+            &st2.on0,
+            &RunSpec {
+                t0_s: 0.0,
+                t1_s: period,
+                record: true,
+                sensitivity: false,
+                contactor_close: None,
+                coarse: false,
+            },
+        )?;
+        (run2, st2)
+    } else {
+        (run, st)
+    };
     let n_probe = built.probes.len();
     let r = built.roles.clone();
     let mut harm_signals: Vec<usize> = Vec::new();
@@ -297,6 +341,18 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
     let mut p_phase = [0.0; 3];
     let mut p_load = 0.0;
     let w = 2.0 * PI / period;
+    // Harmonic integrals: pieces that fill a whole grid step sit on a uniform
+    // grid, so their Gauss-node values form four uniform sequences whose sums
+    // against exp(-i h w t) are FFTs (radix 2 when the grid is a power of two);
+    // pieces cut by a switching instant are summed directly.
+    let n_grid = cfg.grid_points;
+    let use_fft = n_grid.is_power_of_two() && n_grid >= 2 * (h_max + 1);
+    let h_step = period / n_grid as f64;
+    let mut seq: Vec<Vec<Vec<f64>>> = if use_fft {
+        vec![vec![vec![0.0; n_grid]; harm_signals.len()]; 4]
+    } else {
+        Vec::new()
+    };
     let mut rows_cache: std::collections::HashMap<u64, Vec<Vec<f64>>> =
         std::collections::HashMap::new();
     let mut vals = vec![0.0; n_probe];
@@ -352,7 +408,13 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
         }
         let lrows = &loss_cache[&p.key];
         let td_nodes = eng.topo_key(p.key)?;
-        for (t, wt, z) in gs {
+        let full_k = if use_fft && (p.dt_s - h_step).abs() < 1e-9 * h_step {
+            let k = (p.t_s / h_step).round() as usize;
+            (k < n_grid && (p.t_s - k as f64 * h_step).abs() < 1e-9 * h_step).then_some(k)
+        } else {
+            None
+        };
+        for (gj, (t, wt, z)) in gs.into_iter().enumerate() {
             for (iv, vv, r_l) in lrows {
                 let i = dot(iv, &z);
                 p_loss += wt
@@ -377,6 +439,12 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
                 p_phase[k] += wt * vals[r.phase_v[k]] * vals[r.line_i[k]];
             }
             p_load += wt * vals[r.v_dc] * vals[r.i_load];
+            if let Some(k) = full_k {
+                for (j, &si) in harm_signals.iter().enumerate() {
+                    seq[gj][j][k] = vals[si];
+                }
+                continue;
+            }
             let (s1, c1) = (w * t).sin_cos();
             let (mut ch, mut sh) = (1.0f64, 0.0f64);
             for h in 1..=h_max {
@@ -390,6 +458,32 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
                     four[j][h].0 += v * ch;
                     four[j][h].1 += v * sh;
                 }
+            }
+        }
+    }
+    if use_fft {
+        for gj in 0..4 {
+            let wt = solver::GL_W[gj] * h_step / 2.0;
+            let c_j = h_step * (1.0 + solver::GL_X[gj]) / 2.0;
+            let mut j = 0;
+            while j < harm_signals.len() {
+                let j2 = (j + 1).min(harm_signals.len() - 1);
+                let (xa, xb) = fft::fft_two_real(&seq[gj][j], &seq[gj][j2], h_max);
+                let pairs: Vec<(usize, &Vec<(f64, f64)>)> = if j2 == j {
+                    vec![(j, &xa)]
+                } else {
+                    vec![(j, &xa), (j2, &xb)]
+                };
+                for (jj, x) in pairs {
+                    for h in 1..=h_max {
+                        // sum v e^{+i h w t} = e^{i h w c_j} conj(X[h]).
+                        let (sn, cs) = (h as f64 * w * c_j).sin_cos();
+                        let (xr, xi) = (x[h].0, -x[h].1);
+                        four[jj][h].0 += wt * (cs * xr - sn * xi);
+                        four[jj][h].1 += wt * (sn * xr + cs * xi);
+                    }
+                }
+                j += 2;
             }
         }
     }
@@ -503,6 +597,8 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
         p_load_w: p_load / period,
         p_loss_w: p_loss / period,
         newton_iterations: st.iterations,
+        periods_marched: eng.n_runs + stats.0,
+        topologies_built: eng.n_topologies_built + stats.1,
         residual: st.residual,
         topologies: eng_topologies(&eng),
         warnings,
@@ -562,6 +658,7 @@ fn power_up(
             record: true,
             sensitivity: false,
             contactor_close: rule,
+            coarse: false,
         },
     )?;
     let r = &built.roles;

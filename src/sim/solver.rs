@@ -62,6 +62,12 @@ fn fail(reason: &str, hint: &str) -> SolveError {
 /// (about 1e-12 of a period at the default grid).
 pub const TABLE_LEVELS: usize = 30;
 
+/// Newton periods march in strides of `2^COARSE_LEVELS` grid steps (the
+/// integration is exact whatever the step; the step only bounds how short a
+/// conduction pulse the event check can miss).  The recording period uses
+/// the grid step, and its periodicity is checked.
+pub const COARSE_LEVELS: usize = 3;
+
 /// Cached data of one topology.
 pub struct TopoData {
     pub topo: Topology,
@@ -77,6 +83,8 @@ pub struct TopoData {
     /// Condition row of each switch in this topology (current if on, voltage
     /// minus threshold if off).
     pub cond: Vec<Vec<f64>>,
+    /// `up[c] = expm(F h 2^c)`, c = 0..=COARSE_LEVELS (squarings of the step).
+    pub up: Vec<Mat>,
 }
 
 /// A recorded piece of trajectory: from `t_s` for `dt_s` in topology `key`, starting at `z`.
@@ -116,6 +124,8 @@ pub struct RunSpec {
     pub sensitivity: bool,
     /// Extra condition: close contactors when `probe . z >= level`, or at `time`.
     pub contactor_close: Option<ContactorRule>,
+    /// March in strides of `2^COARSE_LEVELS` grid steps (Newton periods).
+    pub coarse: bool,
 }
 
 /// When a contactor (precharge bypass) closes.
@@ -140,6 +150,11 @@ pub struct Engine {
     pub max_events: usize,
     pub n_expm: usize,
     pub n_events: usize,
+    /// Periods (or transient intervals) marched, and topologies built.
+    pub n_runs: usize,
+    /// Newton periods march in coarse strides (see COARSE_LEVELS).
+    pub coarse_newton: bool,
+    pub n_topologies_built: usize,
     /// Times (within the period) where the march must stop: gate openings.
     gate_times: Vec<f64>,
 }
@@ -175,6 +190,9 @@ impl Engine {
             max_events: 400 * 64,
             n_expm: 0,
             n_events: 0,
+            n_runs: 0,
+            coarse_newton: true,
+            n_topologies_built: 0,
             gate_times,
         }
     }
@@ -203,6 +221,7 @@ impl Engine {
                 "check for a zero resistance or a capacitor placed directly across a source",
             )
         })?;
+        self.n_topologies_built += 1;
         let bad = || fail("state matrix is not finite", "check the element values");
         // Direct exponentials where the scaled norm is small (cheap low-degree
         // Padé, full accuracy); squaring upward only above that, as scaling and
@@ -235,12 +254,18 @@ impl Engine {
         let cond = (0..on.len())
             .map(|k| self.cond_row(&topo, k, on[k]))
             .collect();
+        let mut up = vec![step.clone()];
+        for c in 0..COARSE_LEVELS {
+            let m = up[c].mul(&up[c]);
+            up.push(m);
+        }
         let d = Rc::new(TopoData {
             topo,
             step,
             gl,
             table,
             cond,
+            up,
         });
         if self.cache.len() < 4096 {
             self.cache.insert(key, d.clone());
@@ -254,12 +279,20 @@ impl Engine {
         self.topo(&on)
     }
 
-    /// Number of finest-level ticks in `tau` (0 ..= 2^TABLE_LEVELS).
+    /// Number of finest-level ticks in `tau` (0 ..= 2^(TABLE_LEVELS + COARSE_LEVELS)).
     fn ticks(&self, tau: f64) -> u64 {
         let full = 1u64 << TABLE_LEVELS;
-        ((tau / self.h_s) * full as f64)
-            .round()
-            .clamp(0.0, full as f64) as u64
+        let top = (full << COARSE_LEVELS) as f64;
+        ((tau / self.h_s) * full as f64).round().clamp(0.0, top) as u64
+    }
+
+    /// The matrix of tick bit `b`: `expm(F h 2^(b - TABLE_LEVELS))`.
+    fn level(td: &TopoData, b: usize) -> &Mat {
+        if b >= TABLE_LEVELS {
+            &td.up[b - TABLE_LEVELS]
+        } else {
+            &td.table[TABLE_LEVELS - b]
+        }
     }
 
     /// Time of `m` finest-level ticks.
@@ -267,16 +300,14 @@ impl Engine {
         self.h_s * m as f64 / (1u64 << TABLE_LEVELS) as f64
     }
 
-    /// `expm(F tau) z` via the table (tau rounded to the finest level, within one step).
+    /// `expm(F tau) z` via the table (tau rounded to the finest level, at most
+    /// one coarse stride).
     pub fn prop_vec(td: &TopoData, m: u64, z: &[f64]) -> Vec<f64> {
-        if m == 1u64 << TABLE_LEVELS {
-            return td.step.mul_vec(z);
-        }
         let mut v = z.to_vec();
         let mut tmp = vec![0.0; v.len()];
-        for i in 1..=TABLE_LEVELS {
-            if m & (1u64 << (TABLE_LEVELS - i)) != 0 {
-                td.table[i].mul_vec_into(&v, &mut tmp);
+        for b in (0..=TABLE_LEVELS + COARSE_LEVELS).rev() {
+            if m & (1u64 << b) != 0 {
+                Self::level(td, b).mul_vec_into(&v, &mut tmp);
                 std::mem::swap(&mut v, &mut tmp);
             }
         }
@@ -285,13 +316,10 @@ impl Engine {
 
     /// `expm(F tau) S` via the table.
     pub fn prop_mat(td: &TopoData, m: u64, s: &Mat) -> Mat {
-        if m == 1u64 << TABLE_LEVELS {
-            return td.step.mul(s);
-        }
         let mut out = s.clone();
-        for i in 1..=TABLE_LEVELS {
-            if m & (1u64 << (TABLE_LEVELS - i)) != 0 {
-                out = td.table[i].mul(&out);
+        for b in (0..=TABLE_LEVELS + COARSE_LEVELS).rev() {
+            if m & (1u64 << b) != 0 {
+                out = Self::level(td, b).mul(&out);
             }
         }
         out
@@ -432,6 +460,7 @@ impl Engine {
     /// March from `spec.t0_s` to `spec.t1_s` starting with physical state `x0`
     /// and switch states `on0`.
     pub fn run(&mut self, x0: &[f64], on0: &[bool], spec: &RunSpec) -> Result<RunOut, SolveError> {
+        self.n_runs += 1;
         let nx = self.circuit.n_x();
         let nz = self.circuit.n_z();
         let mut z = self.circuit.init_z(x0);
@@ -451,7 +480,11 @@ impl Engine {
             None
         };
         let mut t = spec.t0_s;
-        let h = self.h_s;
+        let h = if spec.coarse {
+            self.h_s * (1u64 << COARSE_LEVELS) as f64
+        } else {
+            self.h_s
+        };
         let mut grid_index: u64 = ((t / h) + 1e-9).floor() as u64;
         let mut contactor_done = spec.contactor_close.is_none();
         let mut n_ev = 0usize;
@@ -735,12 +768,12 @@ impl Engine {
         let mut lo: u64 = 0;
         let mut z_lo = z.to_vec();
         let mut tmp = vec![0.0; z.len()];
-        for i in 0..=TABLE_LEVELS {
-            let step = 1u64 << (TABLE_LEVELS - i);
+        for b in (0..=TABLE_LEVELS + COARSE_LEVELS).rev() {
+            let step = 1u64 << b;
             if lo + step >= m_dt {
                 continue;
             }
-            td.table[i].mul_vec_into(&z_lo, &mut tmp);
+            Self::level(td, b).mul_vec_into(&z_lo, &mut tmp);
             if sgn * dot(c, &tmp) > 0.0 {
                 lo += step;
                 std::mem::swap(&mut z_lo, &mut tmp);
@@ -804,6 +837,7 @@ pub fn solve_periodic(
         record: false,
         sensitivity: false,
         contactor_close: None,
+        coarse: eng.coarse_newton,
     };
     for _ in 0..warmup_periods {
         let r = eng.run(&x0, &on0, &plain)?;
@@ -830,6 +864,7 @@ pub fn solve_periodic_from(
         record: false,
         sensitivity: true,
         contactor_close: None,
+        coarse: eng.coarse_newton,
     };
     let norm = |r: &[f64]| -> f64 {
         r.iter()
