@@ -44,9 +44,12 @@ pub fn fft(x: &mut [(f64, f64)]) {
     }
 }
 
+/// Complex spectrum bins as (re, im).
+pub type Bins = Vec<(f64, f64)>;
+
 /// DFTs of two real sequences at once (packed as one complex sequence).
 /// Returns (X_a, X_b) for bins 0..=h_max.
-pub fn fft_two_real(a: &[f64], b: &[f64], h_max: usize) -> (Vec<(f64, f64)>, Vec<(f64, f64)>) {
+pub fn fft_two_real(a: &[f64], b: &[f64], h_max: usize) -> (Bins, Bins) {
     let n = a.len();
     let mut z: Vec<(f64, f64)> = a.iter().zip(b).map(|(&x, &y)| (x, y)).collect();
     fft(&mut z);
