@@ -98,8 +98,10 @@ impl Default for Nameplate {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
 #[serde(default, deny_unknown_fields)]
 pub struct Readings {
-    /// The three line-to-line voltages at the drive's input terminals
-    /// (L1-L2, L2-L3, L3-L1), V RMS.
+    /// The three line-to-line voltages (L1-L2, L2-L3, L3-L1), V RMS, at the
+    /// drive's input terminals or upstream (the supply board): the
+    /// signatures take this point as the supply, and every impedance
+    /// downstream of it as part of the drive's feed.
     pub v_ll_rms_v: Option<[f64; 3]>,
     /// DC bus, meter on DC, V.
     pub dc_bus_mean_v: Option<f64>,
@@ -313,9 +315,7 @@ impl SignatureId {
             SignatureId::Cap20 => "bus capacitance down to 20 %",
             SignatureId::Unbalance2 => "supply unbalance 2 %",
             SignatureId::Unbalance5 => "supply unbalance 5 %",
-            SignatureId::HighSourceZ => {
-                "high supply impedance (loose joint, undersized or long feed)"
-            }
+            SignatureId::HighSourceZ => "high impedance between the meter point and the bridge (loose joint, undersized or long feed)",
             SignatureId::PrechargeNotBypassed => "precharge resistor not bypassed",
         }
     }
@@ -331,7 +331,7 @@ impl SignatureId {
             SignatureId::Cap20 => "The bus ripple is that of a bank with most of its capacitance gone. Plan the capacitor replacement; look for bulging, leaking or hot capacitors and for an open capacitor connection.",
             SignatureId::Unbalance2 => "The supply is somewhat unbalanced: a diode front end amplifies a small voltage unbalance into a large current imbalance. Measure the voltages at the supply board and look for single-phase loads or a poor joint.",
             SignatureId::Unbalance5 => "The supply is strongly unbalanced. Measure at the supply board, upstream, and check joints and tap settings; report it to whoever runs the supply.",
-            SignatureId::HighSourceZ => "The bus sags more under load than the supply should allow: a loose or corroded joint, an undersized or very long cable or a weak supply. With the supply isolated, check the tightness of the terminations; under load, compare the voltage at the supply board with the drive's terminals.",
+            SignatureId::HighSourceZ => "The bus sags more under load than the measured supply should allow: a loose or corroded joint, or an undersized or very long cable, between the meter point and the bridge. With the supply isolated, check the tightness of the terminations; under load, compare the voltage at the supply board with the drive's terminals (a weak feed upstream of the meter shows as a terminal voltage that sags under load, and the bus then agrees with it).",
             SignatureId::PrechargeNotBypassed => "The bus sags by the load current times the precharge resistor: the bypass (contactor or thyristor) does not close. Check the bypass and its control; the resistor may be overheating.",
         }
     }
@@ -761,6 +761,17 @@ fn plan(inp: &FieldInput, assumptions: &mut Vec<String>) -> Result<Plan, FieldEr
         target,
         open_phase,
     })
+}
+
+/// The healthy circuit the field check builds from the input, for a full
+/// analysis of it or for making test readings.  The load is a placeholder (a
+/// 1 A DC current): set `dc.load` before simulating.
+pub fn healthy_scenario(inp: &FieldInput) -> Result<Scenario, FieldError> {
+    let mut notes = Vec::new();
+    let p = plan(inp, &mut notes)?;
+    let s = base_scenario(inp, &p);
+    crate::params::derive(&s)?;
+    Ok(s)
 }
 
 /// The healthy circuit the signatures start from (load set later).
