@@ -21,7 +21,7 @@ fn show(name: &str, s: &Scenario) {
                 * 100.0;
             let pin: f64 = r.p_phase_w.iter().sum();
             println!("{name:28} {:>8.2?} vdc {:8.2} pp {:7.2} ia {:7.2} {:7.2} {:7.2} thd {:6.2}% h5 {:5.2}% pin {:9.1} pload {:9.1} it {} ev {} topo {} warn {:?}",
-                el, v.mean, v.max - v.min, ia.rms, r.signals[r.roles.line_i[1]].rms, r.signals[r.roles.line_i[2]].rms, thd, ia.harmonics[4].rms / ia.harmonics[0].rms * 100.0, pin, r.p_load_w, r.newton_iterations, r.events.len(), r.topologies, r.warnings);
+                el, v.mean, v.max - v.min, ia.rms, r.signals[r.roles.line_i[1]].rms, r.signals[r.roles.line_i[2]].rms, thd, ia.harmonics[4].rms / ia.harmonics[0].rms * 100.0, pin, r.p_load_w, r.newton_iterations, r.events.len(), r.topologies, (r.periods_marched, r.topologies_built));
             if let Some(t) = &r.transient {
                 println!(
                     "   transient: inrush {:.1} A charge {:?} bypass {:?}",

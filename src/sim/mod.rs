@@ -268,12 +268,47 @@ fn mean_of(
     Ok(acc / eng.period_s)
 }
 
+/// Add the physics to a steady-state failure where it is known: a DC-link LC
+/// filter feeding a constant-power load is unstable when the load's negative
+/// incremental resistance outweighs the filter's damping (R. D. Middlebrook,
+/// "Input filter considerations in design and application of switching
+/// regulators", IEEE IAS Annual Meeting 1976; the series form of the condition
+/// used here, `R_damp > L / (C R_cpl)` with `R_cpl = V^2 / P`, is common practice).
+fn explain_failure(s: &Scenario, d: &Derived, e: SolveError) -> SolveError {
+    if let DcLoad::ConstantPower { p_w } = s.dc.load {
+        let (l, c) = (
+            s.dc.choke_l_h + 2.0 * (d.l_source_h + d.l_reactor_h),
+            s.dc.cap_f,
+        );
+        if l > 0.0 && c > 0.0 && p_w > 0.0 {
+            let v = 1.35 * s.supply.v_ll_rms_v;
+            let r_cpl = v * v / p_w;
+            let r_damp =
+                s.dc.choke_r_ohm + s.dc.cap_esr_ohm + 2.0 * (d.r_source_ohm + d.r_reactor_ohm);
+            let need = l / (c * r_cpl);
+            if r_damp < need {
+                let f_res = 1.0 / (2.0 * PI * (l * c).sqrt());
+                return SolveError {
+                    reason: format!(
+                        "no periodic steady state: the DC-link filter (resonance near {f_res:.0} Hz) feeding a constant-power load is unstable"
+                    ),
+                    hint: format!(
+                        "the load's negative incremental resistance needs a series damping of about {need:.3} ohm against {r_damp:.3} ohm present; add damping (a damped choke or an RC across the bus), change the choke or capacitance, or model the load as a resistor"
+                    ),
+                };
+            }
+        }
+    }
+    e
+}
+
 /// Run the simulation for a scenario.
 pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
     let cfg = SimConfig::from_scenario(s);
     let period = 1.0 / s.supply.f_hz;
     let mut built = build::build(s, d);
-    let (mut eng, st, stats) = steady(&mut built, s, &cfg, period)?;
+    let (mut eng, st, stats) =
+        steady(&mut built, s, &cfg, period).map_err(|e| explain_failure(s, d, e))?;
     let run = eng.run(
         &st.x0,
         &st.on0,
