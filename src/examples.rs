@@ -12,6 +12,14 @@ pub fn all() -> Vec<(&'static str, Scenario)> {
         ("battery_charger", battery_charger()),
         ("three_pulse_heater", three_pulse_heater()),
         ("workshop_drive_no_reactor", workshop_drive_no_reactor()),
+        (
+            "electrolysis_twelve_pulse_parallel",
+            electrolysis_twelve_pulse_parallel(),
+        ),
+        (
+            "lab_supply_three_pulse_thyristor",
+            lab_supply_three_pulse_thyristor(),
+        ),
     ]
 }
 
@@ -235,6 +243,84 @@ pub fn workshop_drive_no_reactor() -> Scenario {
         },
         analysis: AnalysisSettings {
             rated_power_w: 30e3,
+            ..AnalysisSettings::default()
+        },
+        ..Scenario::default()
+    }
+}
+
+/// A 12-pulse parallel supply (interphase reactor) for an electrolysis cell line on 400 V 50 Hz secondaries.
+pub fn electrolysis_twelve_pulse_parallel() -> Scenario {
+    Scenario {
+        name: "Electrolysis supply, twelve-pulse parallel, 400 V 50 Hz".into(),
+        notes: "Demo case: two diode bridges in parallel through an interphase reactor into a cell line (R-L-E).".into(),
+        source: Source {
+            impedance: SourceImpedance::ShortCircuitMva {
+                s_sc_mva: 25.0,
+                x_over_r: 8.0,
+            },
+            reactor: LineReactor::Percent {
+                z_pct: 5.0,
+                x_over_r: 25.0,
+            },
+        },
+        bridge: Bridge {
+            kind: BridgeKind::TwelvePulseParallel,
+            interphase_l_h: 4e-3,
+            v_threshold_v: 0.9,
+            r_slope_ohm: 0.8e-3,
+            ..Bridge::default()
+        },
+        dc: DcSide {
+            cap_f: 0.0,
+            load: DcLoad::Rle {
+                r_ohm: 0.35,
+                l_h: 3e-3,
+                e_v: 380.0,
+            },
+            ..DcSide::default()
+        },
+        analysis: AnalysisSettings {
+            rated_power_w: 180e3,
+            ..AnalysisSettings::default()
+        },
+        ..Scenario::default()
+    }
+}
+
+/// A small three-pulse thyristor supply on 230/400 V 50 Hz for a laboratory DC motor.
+pub fn lab_supply_three_pulse_thyristor() -> Scenario {
+    Scenario {
+        name: "Laboratory DC supply, three-pulse thyristor, 400 V 50 Hz".into(),
+        notes:
+            "Demo case: midpoint thyristor rectifier at 50 degrees into a motor armature (R-L-E)."
+                .into(),
+        source: Source {
+            impedance: SourceImpedance::Transformer {
+                s_kva: 30.0,
+                z_pct: 4.0,
+                x_over_r: 3.0,
+            },
+            reactor: LineReactor::None,
+        },
+        bridge: Bridge {
+            kind: BridgeKind::ThreePulseThyristor,
+            alpha_deg: 50.0,
+            v_threshold_v: 1.2,
+            r_slope_ohm: 12e-3,
+            ..Bridge::default()
+        },
+        dc: DcSide {
+            cap_f: 0.0,
+            load: DcLoad::Rle {
+                r_ohm: 1.8,
+                l_h: 40e-3,
+                e_v: 90.0,
+            },
+            ..DcSide::default()
+        },
+        analysis: AnalysisSettings {
+            rated_power_w: 5e3,
             ..AnalysisSettings::default()
         },
         ..Scenario::default()

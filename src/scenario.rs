@@ -11,7 +11,34 @@ use serde::{Deserialize, Serialize};
 pub const MAX_FILE_BYTES: usize = 1 << 20;
 
 /// Current schema version written by this build.
-pub const SCHEMA_VERSION: u32 = 1;
+pub const SCHEMA_VERSION: u32 = 2;
+
+/// What changed between schema versions (kept for migration):
+/// * 1 -> 2: `compliance` settings, `dc.precharge_stuck` and the capacitor
+///   thermal fields (`dc.cap_rth_k_per_w`, `dc.cap_rated_life_h`,
+///   `dc.cap_rated_temp_c`, `dc.ambient_c`) were added; a version-1 file has
+///   none of them and takes their defaults.  The default output grid changed
+///   from 720 to 1024 points; a version-1 file without `analysis.grid_points`
+///   keeps 720 so that it reproduces its old figures.
+pub fn migrate(value: &mut serde_json::Value, from: u32) -> Vec<String> {
+    let mut notes = Vec::new();
+    if from < 2 {
+        if let Some(obj) = value.as_object_mut() {
+            let analysis = obj
+                .entry("analysis")
+                .or_insert_with(|| serde_json::json!({}));
+            if let Some(a) = analysis.as_object_mut() {
+                a.entry("grid_points").or_insert(720.into());
+            }
+            notes
+                .push("migrated from schema version 1: new fields take their defaults".to_string());
+        }
+    }
+    if let Some(obj) = value.as_object_mut() {
+        obj.insert("schema_version".into(), SCHEMA_VERSION.into());
+    }
+    notes
+}
 
 /// A complete case.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -307,19 +334,16 @@ pub fn from_json(text: &str) -> Result<Scenario, String> {
     let mut value: serde_json::Value =
         serde_json::from_str(text).map_err(|e| format!("not valid JSON: {e}"))?;
     if let Some(obj) = value.as_object_mut() {
-        match obj.get("schema_version") {
-            None => {
-                obj.insert("schema_version".into(), SCHEMA_VERSION.into());
-            }
-            Some(v) => {
-                let ver = v.as_u64().ok_or("schema_version: must be a whole number")?;
-                if ver == 0 || ver > SCHEMA_VERSION as u64 {
-                    return Err(format!(
-                        "schema_version: {ver} is not supported by this build (newest {SCHEMA_VERSION})"
-                    ));
-                }
-            }
+        let ver = match obj.get("schema_version") {
+            None => SCHEMA_VERSION as u64,
+            Some(v) => v.as_u64().ok_or("schema_version: must be a whole number")?,
+        };
+        if ver == 0 || ver > SCHEMA_VERSION as u64 {
+            return Err(format!(
+                "schema_version: {ver} is not supported by this build (it reads 1 to {SCHEMA_VERSION}; a newer Rectifield wrote this file)"
+            ));
         }
+        migrate(&mut value, ver as u32);
     } else {
         return Err("scenario: must be a JSON object".into());
     }
