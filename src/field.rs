@@ -1337,7 +1337,11 @@ fn verdict(sigs: &[Signature]) -> Verdict {
                     "The readings fit best with: {} (distance {:.2}).",
                     best.title, d_best
                 ));
-                if let Some(second) = ranking.get(1).and_then(|r| r.distance.map(|d| (r, d))) {
+                if let Some(second) = ranking
+                    .get(1)
+                    .filter(|r| r.id != SignatureId::Healthy)
+                    .and_then(|r| r.distance.map(|d| (r, d)))
+                {
                     s.push_str(&format!(
                         " Next: {} ({:.2}).",
                         second.0.title, second.1
@@ -1391,6 +1395,158 @@ fn verdict(sigs: &[Signature]) -> Verdict {
         summary,
         next,
     }
+}
+
+/// A one-line sketch of a waveform (eight block heights), scaled to its own
+/// peak-to-peak.
+fn sketch(w: &[f64], width: usize) -> String {
+    const BLOCKS: [char; 8] = ['▁', '▂', '▃', '▄', '▅', '▆', '▇', '█'];
+    if w.is_empty() {
+        return String::new();
+    }
+    let (lo, hi) = w
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+            (a.min(x), b.max(x))
+        });
+    let span = (hi - lo).max(1e-12);
+    (0..width)
+        .map(|j| {
+            let x = w[j * w.len() / width];
+            BLOCKS[(((x - lo) / span) * 7.0).round().clamp(0.0, 7.0) as usize]
+        })
+        .collect()
+}
+
+/// Plain-text rendering of a field report (used by the command line).
+pub fn text(r: &FieldReport) -> String {
+    use std::fmt::Write;
+    let mut o = String::new();
+    let _ = writeln!(o, "SAFETY (read first)");
+    for s in &r.safety {
+        let _ = writeln!(o, "  * {s}");
+    }
+    let _ = writeln!(o, "\nField check, rectifield {}", r.version);
+    let _ = writeln!(o, "\nVerdict\n  {}", r.verdict.summary);
+    for n in &r.verdict.next {
+        let _ = writeln!(o, "  - {n}");
+    }
+    let e = &r.expected;
+    let _ = writeln!(o, "\nExpected DC bus");
+    let _ = writeln!(
+        o,
+        "  supply used          {:8.1} V line-to-line ({}, uncertainty {:.1} %)",
+        e.supply_v_ll_rms_v,
+        e.supply_basis,
+        e.supply_rel_uncertainty * 100.0
+    );
+    let _ = writeln!(
+        o,
+        "  at no load           {:8.1} V   a meter on DC may read {:.1} to {:.1} V",
+        e.no_load_v, e.no_load_band_v[0], e.no_load_band_v[1]
+    );
+    let _ = writeln!(
+        o,
+        "  at the present load  {:8.1} V   a meter on DC may read {:.1} to {:.1} V",
+        e.at_load_v, e.at_load_band_v[0], e.at_load_band_v[1]
+    );
+    let _ = writeln!(
+        o,
+        "  ripple at load       {:8.2} V   (true-RMS meter on AC)",
+        e.at_load_ripple_rms_v
+    );
+    let _ = writeln!(
+        o,
+        "  load                 {:8.2} kW  {}",
+        e.load_p_w / 1e3,
+        e.load_basis
+    );
+    for (name, t) in [
+        ("undervoltage trip", &e.undervoltage),
+        ("overvoltage trip", &e.overvoltage),
+    ] {
+        if let Some(t) = t {
+            let _ = writeln!(
+                o,
+                "  {name:<20} {:8.1} V   margin {:.1} V ({:.1} %), worst {:.1} V: {}",
+                t.trip_v, t.margin_v, t.margin_pct, t.margin_worst_v, t.note
+            );
+        }
+    }
+    let m = &r.measured;
+    let _ = writeln!(o, "\nFrom the readings");
+    if let (Some(v), Some(u)) = (m.v_ll_mean_v, m.voltage_unbalance_pct) {
+        let _ = writeln!(
+            o,
+            "  line voltage mean {v:.1} V, unbalance {u:.2} % (largest deviation from the mean)"
+        );
+    }
+    if let (Some(i), Some(u)) = (m.line_i_mean_a, m.current_imbalance_pct) {
+        let _ = writeln!(
+            o,
+            "  line current mean {i:.2} A, imbalance {u:.1} %, lowest on L{}",
+            m.lowest_current_phase.unwrap_or(0)
+        );
+    }
+    let _ = writeln!(
+        o,
+        "\nSignatures, best fit first (distance 1 or less: fits within tolerance)"
+    );
+    let _ = writeln!(
+        o,
+        "  {:>8}  {:>8} {:>8} {:>6} {:>7} {:>7}  {:<24}  signature",
+        "distance", "DC V", "AC V", "Hz", "I imb%", "V unb%", "ripple over one period"
+    );
+    for rk in &r.verdict.ranking {
+        let Some(s) = r.signatures.iter().find(|s| s.id == rk.id) else {
+            continue;
+        };
+        let d = rk
+            .distance
+            .map(|d| format!("{d:8.2}"))
+            .unwrap_or_else(|| "       -".into());
+        match &s.predicted {
+            Some(p) => {
+                let _ = writeln!(
+                    o,
+                    "  {d}  {:8.1} {:8.2} {:6.0} {:7.1} {:7.2}  {:<24}  {} (ripple {:.1} V pk-pk)",
+                    p.dc_mean_v,
+                    p.ripple_rms_v,
+                    p.ripple_dominant_hz,
+                    p.current_imbalance_pct,
+                    p.voltage_unbalance_pct,
+                    sketch(&p.ripple_wave_v, 24),
+                    s.title,
+                    p.dc_max_v - p.dc_min_v
+                );
+            }
+            None => {
+                let _ = writeln!(
+                    o,
+                    "  {d}  {:>48}  {}: {}",
+                    "",
+                    s.title,
+                    s.failed.clone().unwrap_or_default()
+                );
+            }
+        }
+    }
+    let _ = writeln!(o, "\nHow each signature was modelled");
+    for s in &r.signatures {
+        let _ = writeln!(o, "  - {}: {}", s.title, s.model);
+    }
+    let _ = writeln!(o, "\nAssumptions");
+    for a in &r.assumptions {
+        let _ = writeln!(o, "  - {a}");
+    }
+    for w in &r.warnings {
+        let _ = writeln!(o, "  warning: {w}");
+    }
+    let _ = write!(
+        o,
+        "\nSAFETY: DC buses and capacitors can kill; local codes and the maker's manual govern."
+    );
+    o
 }
 
 #[cfg(test)]

@@ -171,6 +171,47 @@ fn cmd_check(args: &[String]) -> CliResult {
     }
 }
 
+/// `field FILE [--json]`: the field check of a drive's front end from
+/// nameplate data and meter readings (FILE: field input JSON, or -).
+fn cmd_field(args: &[String]) -> CliResult {
+    if args.iter().any(|a| a == "--help" || a == "-h") {
+        return Ok((
+            "usage: rectifield field FILE [--json]
+  FILE    field input JSON (nameplate, readings, trips, meter), or - for standard input
+  --json  print the complete field report as JSON
+  prints what the DC bus should read, the readings each fault would give,
+  the faults ranked by their distance from the readings, and the safety cautions"
+                .into(),
+            0,
+        ));
+    }
+    let mut file = None;
+    let mut json = false;
+    for a in args {
+        match a.as_str() {
+            "--json" => json = true,
+            s if s.starts_with("--") => return Err((2, format!("field: unknown option {s}"))),
+            s if file.is_none() => file = Some(s.to_string()),
+            s => return Err((2, format!("unexpected argument: {s}"))),
+        }
+    }
+    let file = file.ok_or((
+        2,
+        "field: missing FILE (use - for standard input)".to_string(),
+    ))?;
+    let text = read_input(&file).map_err(|e| (2, e))?;
+    let input = rectifield::field::from_json(&text).map_err(|e| (2, e.to_string()))?;
+    let rep = rectifield::field::check(&input).map_err(|e| (2, e.to_string()))?;
+    if json {
+        Ok((
+            serde_json::to_string_pretty(&rep).map_err(|e| (2, e.to_string()))?,
+            0,
+        ))
+    } else {
+        Ok((rectifield::field::text(&rep), 0))
+    }
+}
+
 fn run(args: &[String]) -> CliResult {
     match args.first().map(String::as_str) {
         None | Some("--help") | Some("-h") | Some("help") => Ok((HELP.to_string(), 0)),
@@ -183,6 +224,7 @@ fn run(args: &[String]) -> CliResult {
         Some("sweep") => cmd_sweep(&args[1..]),
         Some("check") => cmd_check(&args[1..]),
         Some("examples") => cmd_examples(&args[1..]),
+        Some("field") => cmd_field(&args[1..]),
         Some(other) => Err((2, format!("unknown command: {other} (try --help)"))),
     }
 }

@@ -423,3 +423,50 @@ fn trip_margins_and_safety_are_reported() {
         assert!(m.abs() < 0.2 * p.ripple_rms_v + 0.05, "{:?}: {m}", s.id);
     }
 }
+
+/// The `field` command: text report with the safety panel, JSON output, and
+/// exit status 2 with the field path for bad input.
+#[test]
+fn cli_field_command() {
+    use std::io::Write;
+    use std::process::{Command, Stdio};
+    let run = |input: &str, extra: &[&str]| {
+        let mut c = Command::new(env!("CARGO_BIN_EXE_rectifield"))
+            .arg("field")
+            .arg("-")
+            .args(extra)
+            .stdin(Stdio::piped())
+            .stdout(Stdio::piped())
+            .stderr(Stdio::piped())
+            .spawn()
+            .unwrap();
+        c.stdin.take().unwrap().write_all(input.as_bytes()).unwrap();
+        c.wait_with_output().unwrap()
+    };
+    let good = r#"{"nameplate": {"rating_kw": 7.5, "load_kw": 5, "bus_c_uf": 470},
+                   "readings": {"v_ll_rms_v": [401, 399, 400], "dc_bus_mean_v": 551.9, "dc_bus_ac_rms_v": 11.6}}"#;
+    let out = run(good, &[]);
+    assert_eq!(out.status.code(), Some(0));
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.starts_with("SAFETY"));
+    assert!(text.contains("discharge time"));
+    assert!(text.contains("Verdict"));
+    assert!(text.contains("consistent with a healthy front end"));
+    let out = run(good, &["--json"]);
+    assert_eq!(out.status.code(), Some(0));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["safety"].as_array().unwrap().len(), 5);
+    assert_eq!(v["signatures"].as_array().unwrap().len(), 9);
+    let out = run(
+        r#"{"nameplate": {"rating_kw": 7.5}, "readings": {"v_ll_rms_v": [400, 0, 400]}}"#,
+        &[],
+    );
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8(out.stderr).unwrap();
+    assert!(err.contains("readings.v_ll_rms_v[1]"), "{err}");
+    let out = run(r#"{"nameplate": {"rating_kv": 7.5}}"#, &[]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8(out.stderr)
+        .unwrap()
+        .contains("nameplate.rating_kv"));
+}
