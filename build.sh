@@ -38,7 +38,11 @@ Commands:
             and headless Chromium, the engine dependency-boundary check, builds
             dist/, and runs the end-to-end page tests in headless Chromium and
             headless Firefox.  Prints the time of each stage.
-  bench     Benchmarks (not written yet: prints what is planned and exits 3).
+  bench     Benchmark against ngspice (issue #10): builds dist/, then times the
+            engine natively and in headless Chromium and ngspice at matched
+            accuracy, with the scaling, size and start-up figures; prints the
+            targets as met / not met and writes bench/report.md and .json.
+            `bench --quick` runs fewer repetitions.  Not part of `test`.
   clean     Remove dist/ and target/web/.  `clean --all` also runs `cargo clean`
             and removes node_modules/.
   -h, --help  This text.
@@ -304,12 +308,14 @@ cmd_test() {
 }
 
 cmd_bench() {
-  cat <<'EOF'
-build.sh bench: TODO, not implemented yet.
-Planned: `cargo run --release --bin rectifield -- ...` over the scenarios in bench/,
-timing the switched-circuit steady-state solve, results under bench/out/.
-EOF
-  exit 3
+  # The benchmark (issue #10): builds dist/ (and the tools it needs), then
+  # bench/run times the engine natively (examples/bench.rs) and in headless
+  # Chromium (bench/wasm.mjs) against ngspice at matched accuracy, and writes
+  # bench/report.md and bench/report.json.  Targets are printed, never asserted.
+  stage "prerequisites (apt: chromium, ngspice)" apt_ensure chromium ngspice
+  cmd_build
+  stage "benchmark (native, wasm in Chromium, ngspice)" python3 bench/run "$@"
+  summary
 }
 
 cmd_clean() {
@@ -324,7 +330,7 @@ cmd_clean() {
 case "${1:-}" in
   "") cmd_build ;;
   test) cmd_test ;;
-  bench) cmd_bench ;;
+  bench) shift; cmd_bench "$@" ;;
   clean) shift; cmd_clean "$@" ;;
   -h|--help|help) usage ;;
   *) usage >&2; exit 2 ;;
