@@ -288,6 +288,13 @@ ngspice_check() {
   fi
 }
 
+parity_check() {
+  # Same numbers everywhere: every built-in example through the native CLI and
+  # through the wasm build in dist/, compared field by field.
+  cargo build --release --bin rectifield
+  node tests/parity/run.mjs target/release/rectifield
+}
+
 cmd_test() {
   stage "prerequisites (apt, rust target, wasm-bindgen-cli, npm)" prereq_test
   stage "cargo fmt --check" cargo fmt --check
@@ -302,6 +309,7 @@ cmd_test() {
   stage "assemble dist/" assemble_dist
   report_dist
   stage "end-to-end page tests (Chromium, Firefox)" e2e_tests
+  stage "same numbers: CLI and wasm (docs/examples)" parity_check
   stage "ngspice cross-check" ngspice_check
   summary
   echo "build.sh test: all stages passed"

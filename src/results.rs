@@ -107,7 +107,8 @@ pub struct DeviceRating {
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct CapacitorFigures {
     pub i_rms_a: f64,
-    /// Ripple current by frequency (order of the supply frequency).
+    /// Ripple current by frequency (order of the supply frequency; the percent
+    /// column is of the capacitor's RMS current).
     pub by_order: Vec<HarmonicRow>,
     pub esr_loss_w: f64,
     pub temp_rise_k: f64,
@@ -409,7 +410,8 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
         let life = s.dc.cap_rated_life_h * 2f64.powf((s.dc.cap_rated_temp_c - core) / 10.0);
         CapacitorFigures {
             i_rms_a: ic.rms,
-            by_order: rows(&ic.harmonics).into_iter().filter(|h| h.rms > 1e-6 * ic.rms.max(1e-12)).collect(),
+            // Percent of the capacitor's RMS current (there is no fundamental to refer to).
+            by_order: rows_of_dc(&ic.harmonics, ic.rms).into_iter().filter(|h| h.rms > 1e-6 * ic.rms.max(1e-12)).collect(),
             esr_loss_w: loss,
             temp_rise_k: rise,
             core_temp_c: core,
