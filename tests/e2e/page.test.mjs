@@ -24,7 +24,7 @@ const INDEX = path.join(DIST, "index.html");
 const DIST_URL = pathToFileURL(DIST).href + "/";
 const ARTIFACTS = path.resolve("tests/artifacts");
 const K6 = (3 * Math.SQRT2) / Math.PI; // 1.3505
-const TIMEOUT = 20000;
+const TIMEOUT = 45000;
 
 const BROWSERS = [
   {
@@ -169,8 +169,9 @@ for (const b of BROWSERS) {
       await typeInto("v_ll_rms_v", "6x0");
       await page.waitForSelector('#results[data-state="stale"]');
       const msg = await page.$eval("#v_ll_rms_v", (e) => e.closest(".field").querySelector(".msg").textContent);
-      assert.match(msg, /number/);
+      assert.match(msg, /not a unit|number/);
       assert.equal(await out("textbook.vdo_v"), shown, "last good value kept");
+      assert.equal(await page.$eval("#v_ll_rms_v", (e) => e.value), "6x0", "the typed text is kept");
       assert.equal(await page.$eval("#stale-note", (e) => e.hidden), false);
     });
 
@@ -178,7 +179,7 @@ for (const b of BROWSERS) {
       await typeInto("v_ll_rms_v", "-5");
       await page.waitForFunction(() => {
         const m = document.querySelector("#v_ll_rms_v").closest(".field").querySelector(".msg");
-        return m.textContent.includes("positive");
+        return /positive|out of range/.test(m.textContent);
       });
       assert.equal(await page.$eval("#results", (e) => e.getAttribute("data-state")), "stale");
       const n = await typeInto("v_ll_rms_v", "480");
@@ -228,7 +229,8 @@ for (const b of BROWSERS) {
     });
 
     test("touch targets are at least 44 px high", async () => {
-      const small = await page.$$eval("#inputs input:not([type=file]), #inputs select, #inputs button, #inputs label.button", (els) =>
+      // A checkbox's touch target is its label (the whole row).
+      const small = await page.$$eval("#inputs input:not([type=file]):not([type=checkbox]), #inputs select, #inputs button, #inputs label.button, #inputs label.check, #inputs summary, #results button", (els) =>
         els
           .filter((e) => e.offsetParent !== null)
           .map((e) => [e.id, e.getBoundingClientRect().height])
@@ -237,7 +239,7 @@ for (const b of BROWSERS) {
       assert.deepEqual(small, []);
       const modes = await page.$$eval("#inputs input", (els) =>
         els
-          .filter((e) => e.type !== "file" && e.getAttribute("data-type") !== "text")
+          .filter((e) => e.type !== "file" && e.type !== "checkbox" && e.getAttribute("data-type") !== "text")
           .filter((e) => e.getAttribute("inputmode") !== "decimal")
           .map((e) => e.id)
       );
@@ -331,6 +333,407 @@ for (const b of BROWSERS) {
         assert.match(directive, /connect-src/);
       } finally {
         await tab.close();
+      }
+    });
+
+    // ---------------------------------------------------------------- the page in full
+
+    const shot = (name) =>
+      page.screenshot({ path: path.join(ARTIFACTS, `${b.name}-${name}.png`) }).catch(() => {});
+    const shotOf = async (sel, name) => {
+      const h = await page.$(sel);
+      if (h) await h.screenshot({ path: path.join(ARTIFACTS, `${b.name}-${name}.png`) }).catch(() => {});
+    };
+    async function openCaseFile(scenario, name) {
+      const file = path.join(profile, name || "case.rectifield.json");
+      fs.writeFileSync(file, typeof scenario === "string" ? scenario : JSON.stringify(scenario));
+      const n = await computed();
+      await (await page.$("#open_case")).uploadFile(file);
+      return n;
+    }
+    // Every field of the form: id -> value (checkboxes: checked).
+    const formState = (pg) =>
+      (pg || page).$$eval("#inputs [data-path], #inputs [data-variant], #inputs [data-harm]", (els) =>
+        Object.fromEntries(els.map((e) => [e.id, e.type === "checkbox" ? e.checked : e.value]))
+      );
+    async function captureDownloads() {
+      await page.evaluate(() => {
+        window.__saved = [];
+        if (!window.__origCreate) window.__origCreate = URL.createObjectURL;
+        URL.createObjectURL = (blob) => {
+          blob.text().then((t) => window.__saved.push(t));
+          return window.__origCreate(blob);
+        };
+      });
+    }
+
+    // A stiff source and a resistor, no capacitor: the closed forms apply (continuous
+    // conduction, negligible commutation).  Closed forms: six-pulse bridge
+    // Vdo = (3 sqrt2 / pi) V_LL, Vd = Vdo cos(alpha) (Mohan, Undeland, Robbins,
+    // 3rd ed., ch. 5 and 6); three-pulse (star, midpoint) rectifier
+    // Vdc = (q / pi) Vm sin(pi / q) with q = 3 and Vm the peak phase voltage
+    // (M. H. Rashid, "Power Electronics: Circuits, Devices and Applications",
+    // 3rd ed., ch. 3, multiphase star rectifiers), times cos(alpha) for
+    // thyristors while conduction stays continuous (alpha <= 30 deg on a
+    // resistor); twelve-pulse: two six-pulse bridges on equal secondaries,
+    // outputs in series = 2 Vdo, in parallel = Vdo.
+    const K3 = ((3 / Math.PI) * Math.sin(Math.PI / 3) * Math.SQRT2) / Math.sqrt(3); // 0.6752
+    const BRIDGES = [
+      ["six_pulse_diode", 0, K6],
+      ["six_pulse_thyristor", 30, K6 * Math.cos(Math.PI / 6)],
+      ["three_pulse_diode", 0, K3],
+      ["three_pulse_thyristor", 20, K3 * Math.cos((20 * Math.PI) / 180)],
+      ["twelve_pulse_series", 0, 2 * K6],
+      ["twelve_pulse_parallel", 0, K6],
+    ];
+
+    test("every bridge type: the simulated DC average matches its closed form", async () => {
+      let n = await openCaseFile({
+        name: "Stiff source, resistor",
+        supply: { v_ll_rms_v: 400, f_hz: 50 },
+        source: { impedance: { kind: "direct", r_ohm: 1e-4, l_h: 1e-6 }, reactor: { kind: "none" } },
+        dc: { cap_f: 0, cap_esr_ohm: 0, load: { kind: "resistor", r_ohm: 50 } },
+      });
+      await waitRecomputed(n);
+      for (const [kind, alpha, k] of BRIDGES) {
+        n = await computed();
+        await page.select("#bridge_kind", kind);
+        await waitRecomputed(n);
+        if (/thyristor/.test(kind)) {
+          n = await typeInto("alpha_deg", String(alpha));
+          await waitRecomputed(n);
+        }
+        const got = await num("results.dc.v_avg_v");
+        const want = k * 400;
+        assert.ok(close(got, want, 0.01), `${kind}: simulated V_dc ${got} V vs closed form ${want.toFixed(2)} V`);
+        // the glance figure is the same number
+        assert.ok(close(await num("glance.v_dc_avg_v"), got, 1e-3), `${kind}: glance figure`);
+        assert.equal(await page.$eval("#schematic", (e) => e.getAttribute("data-bridge")), kind);
+        const devs = await page.$$eval("#schematic path.dev:not(.gate)", (p) => p.length);
+        const want_devs = { six: 12, thr: 6, twe: 24 }[kind.slice(0, 3)]; // triangle and bar per device
+        assert.equal(devs, want_devs, `${kind}: devices drawn`);
+        const gates = await page.$$eval("#schematic path.gate", (p) => p.length);
+        assert.equal(gates > 0, /thyristor/.test(kind), `${kind}: gates drawn only for thyristors`);
+        if (kind === "twelve_pulse_series" || kind === "three_pulse_diode") await shotOf("#out-schematic", `schematic-${kind}`);
+      }
+      n = await computed();
+      await page.select("#bridge_kind", "six_pulse_diode");
+      await waitRecomputed(n);
+    });
+
+    test("engineering notation is read; a wrong unit is marked beside its field", async () => {
+      let n = await typeInto("cap_f", "2.2 mF");
+      await waitRecomputed(n);
+      let label = await page.$eval("#schematic", (e) => e.textContent);
+      assert.match(label, /2\.2 mF/, "schematic shows the capacitor typed");
+      n = await typeInto("choke_l_h", "400u");
+      await waitRecomputed(n);
+      label = await page.$eval("#schematic", (e) => e.textContent);
+      assert.match(label, /choke 400 µH/);
+      await typeInto("cap_f", "2.2 mH");
+      await page.waitForSelector('#results[data-state="stale"]');
+      assert.match(await page.$eval("#cap_f-msg", (e) => e.textContent), /not a unit/);
+      assert.equal(await page.$eval("#cap_f", (e) => e.getAttribute("aria-invalid")), "true");
+      n = await typeInto("cap_f", "0");
+      await waitRecomputed(n);
+      n = await typeInto("choke_l_h", "0");
+      await waitRecomputed(n);
+      // an engine refusal on a field inside a fold, and on a frequency
+      await typeInto("f_hz", "2000");
+      await page.waitForFunction(() => document.querySelector("#f_hz-msg").textContent.includes("1 kHz"));
+      n = await typeInto("f_hz", "50");
+      await waitRecomputed(n);
+      await typeInto("imp_direct_l_h", "-1 mH");
+      await page.waitForFunction(() => /positive|out of range/.test(document.querySelector("#imp_direct_l_h-msg").textContent));
+      n = await typeInto("imp_direct_l_h", "1 uH");
+      await waitRecomputed(n);
+      // a bad value in a closed fold opens the fold, so that the mark is seen
+      assert.equal(await page.$eval("#fold-unbalance", (d) => d.open), false);
+      await page.$eval("#mag_b", (e) => {
+        e.value = "98 Hz";
+        e.dispatchEvent(new Event("input", { bubbles: true }));
+      });
+      await page.waitForFunction(() => document.querySelector("#mag_b-msg").textContent.includes('"Hz" is not'));
+      assert.equal(await page.$eval("#fold-unbalance", (d) => d.open), true);
+      n = await typeInto("mag_b", "100 %");
+      await waitRecomputed(n);
+    });
+
+    test("a lost phase and an open device are drawn and computed", async () => {
+      await page.$eval("#fold-unbalance", (d) => (d.open = true));
+      let n = await computed();
+      await page.click("label[for=open_a]");
+      await waitRecomputed(n);
+      assert.equal(await page.$eval("#schematic", (e) => e.getAttribute("data-lost")), "a");
+      assert.match(await page.$eval("#schematic", (e) => e.textContent), /phase a lost/);
+      // with phase a open its line current is zero
+      const rms = await page.$eval("#out-exact-line table.grid tbody tr td:nth-child(2)", (e) => Number(e.textContent));
+      assert.ok(Math.abs(rms) < 1e-3, `phase a current with the phase lost: ${rms} A`);
+      await shotOf("#out-schematic", "schematic-lost-phase");
+      n = await computed();
+      await page.click("label[for=open_a]");
+      await waitRecomputed(n);
+      n = await computed();
+      await page.select("#open_device", "0");
+      await waitRecomputed(n);
+      assert.equal(await page.$eval("#schematic", (e) => e.getAttribute("data-open-device")), "0");
+      assert.ok((await page.$$eval("#schematic path.dev.open", (p) => p.length)) >= 2, "open device drawn dashed");
+      const state = await page.$eval("#out-ratings table.grid tbody tr td:last-child", (e) => e.textContent);
+      assert.match(state, /OPEN/);
+      n = await computed();
+      await page.select("#open_device", "");
+      await waitRecomputed(n);
+    });
+
+    test("examples open and compute; results at a glance and the grid verdict", async () => {
+      const ids = await page.$$eval("#examples option", (o) => o.map((x) => x.value).filter(Boolean));
+      assert.ok(ids.length >= 4, `examples: ${ids}`);
+      let n = await computed();
+      await page.select("#examples", "pumping_station_drive");
+      await waitRecomputed(n);
+      assert.equal(await page.$eval("#v_ll_rms_v", (e) => e.value), "480");
+      assert.equal(await page.$eval("#f_hz", (e) => e.value), "60");
+      assert.equal(await page.$eval("#reactor_pct_z_pct", (e) => e.value), "3");
+      for (const k of ["v_dc_avg_v", "ripple_pp_v", "i_line_rms_a", "thd_max_pct", "power_factor", "device_v_peak_v"]) await num("glance." + k);
+      const hasCompliance = await page.evaluate(() => !!document.querySelector('[data-out="compliance.verdict"]'));
+      if (hasCompliance) {
+        const v = await out("glance.verdict");
+        assert.match(v, /Pass|Fail|Incomplete|Not applicable/, "the verdict is a word, not a colour");
+      }
+      await page.evaluate(() => window.scrollTo(0, 0));
+      await shot("glance");
+      for (const id of ids) {
+        n = await computed();
+        await page.select("#examples", id);
+        await waitRecomputed(n);
+        assert.equal(await page.$$eval("#sections .card", (c) => c.length > 3), true, `${id}: sections shown`);
+      }
+    });
+
+    test("plots: waveforms, spectrum with limits, power-up, sweep with cancel; CSV export", async () => {
+      let n = await computed();
+      await page.select("#examples", "pumping_station_drive");
+      await waitRecomputed(n);
+      await page.waitForSelector("#plot-waves canvas");
+      const legend = () => page.$$eval("#plot-waves .u-legend .u-series th", (t) => t.map((x) => x.textContent.trim()));
+      let names = await legend();
+      assert.ok(names.includes("v_dc") && names.includes("i_a"), `legend: ${names}`);
+      await page.click('#trace-choice input[value="i_cap"]');
+      await page.waitForFunction(() => [...document.querySelectorAll("#plot-waves .u-legend th")].some((t) => t.textContent.includes("i_cap")));
+      await page.$eval("#plot-waves", (e) => e.scrollIntoView());
+      await shotOf("#out-plots", "plot-waveforms");
+      await captureDownloads();
+      await page.click("#plot-waves .plot-tools button:last-child"); // CSV
+      await page.waitForFunction(() => window.__saved.length > 0);
+      const csv = await page.evaluate(() => window.__saved[0]);
+      const lines = csv.trim().split("\n");
+      assert.match(lines[0], /^time \(s\),/);
+      assert.ok(lines[0].includes("i_cap (A)"));
+      const row = lines[1].split(",");
+      assert.equal(row.length, lines[0].split(",").length);
+      assert.ok(lines.length > 700, `CSV rows ${lines.length}`);
+
+      await page.click('[data-tab="spectrum"]');
+      await page.waitForSelector("#plot-spectrum canvas");
+      if (await page.evaluate(() => !!document.querySelector('[data-out="compliance.verdict"]'))) {
+        await page.select("#spectrum-basis", "ieee");
+        await page.waitForFunction(() => [...document.querySelectorAll("#plot-spectrum .u-legend th")].some((t) => t.textContent.includes("IEEE 519 limit")));
+      }
+      await shotOf("#out-plots", "plot-spectrum");
+
+      await page.click('[data-tab="transient"]');
+      n = await computed();
+      await page.click("#transient-on");
+      await waitRecomputed(n);
+      await page.waitForSelector("#plot-transient canvas");
+      const inrush = await num("sim.transient.inrush_peak_a");
+      assert.ok(inrush > 0, "inrush peak");
+      await shotOf("#out-plots", "plot-power-up");
+
+      await page.click('[data-tab="sweep"]');
+      await page.select("#sweep-field", "v_ll_rms_v");
+      await page.$eval("#sweep-from", (e) => (e.value = "440"));
+      await page.$eval("#sweep-to", (e) => (e.value = "520"));
+      await page.$eval("#sweep-n", (e) => (e.value = "5"));
+      await page.select("#sweep-y", "v_dc_avg_v");
+      await page.click("#sweep-run");
+      await page.waitForSelector('#panel-sweep[data-state="done"]', { timeout: 60000 });
+      assert.match(await page.$eval("#sweep-msg", (e) => e.textContent), /Done: 5 points/);
+      await page.waitForSelector("#plot-sweep canvas");
+      await captureDownloads();
+      await page.click("#plot-sweep .plot-tools button:last-child");
+      await page.waitForFunction(() => window.__saved.length > 0);
+      const sw = (await page.evaluate(() => window.__saved[0])).trim().split("\n").slice(1).map((l) => l.split(",").map(Number));
+      assert.equal(sw.length, 5);
+      // the DC bus rises with the line voltage, close to in proportion (Vdo = 1.35 V_LL)
+      for (let i = 1; i < sw.length; i++) assert.ok(sw[i][1] > sw[i - 1][1], `sweep not rising at ${sw[i][0]} V`);
+      assert.ok(close(sw[4][1] / sw[0][1], 520 / 440, 0.03), `ratio ${sw[4][1] / sw[0][1]}`);
+      await shotOf("#out-plots", "plot-sweep");
+      // a long sweep can be cancelled
+      await page.$eval("#sweep-n", (e) => (e.value = "200"));
+      await page.click("#sweep-run");
+      await page.waitForFunction(() => document.querySelector("#sweep-progress").value >= 1);
+      await page.click("#sweep-cancel");
+      await page.waitForSelector('#panel-sweep[data-state="cancelled"]', { timeout: 30000 });
+      const m = await page.$eval("#sweep-msg", (e) => e.textContent);
+      const done = Number(/after (\d+) of 200/.exec(m)[1]);
+      assert.ok(done < 200, m);
+      await page.click('[data-tab="waves"]');
+    });
+
+    test("save and open restore every field", async () => {
+      let n = await computed();
+      await page.select("#examples", "plating_rectifier");
+      await waitRecomputed(n);
+      await page.click("#fold-unbalance summary").catch(() => {});
+      await page.$eval("#fold-unbalance", (d) => (d.open = true));
+      n = await typeInto("h5_pct", "2.5");
+      await waitRecomputed(n);
+      n = await typeInto("ang_c", "-4");
+      await waitRecomputed(n);
+      n = await typeInto("case_name", "Bath 3 <script>alert(1)</script>");
+      await waitRecomputed(n);
+      const before = await formState();
+      await captureDownloads();
+      await page.click("#save_case");
+      await page.waitForFunction(() => window.__saved.length > 0);
+      const saved = await page.evaluate(() => window.__saved[0]);
+      assert.deepEqual(JSON.parse(saved).supply.harmonics.find((h) => h.order === 5).magnitude_pct, 2.5);
+      n = await computed();
+      await page.click("#new_case");
+      await waitRecomputed(n);
+      assert.notDeepEqual(await formState(), before);
+      n = await openCaseFile(saved, "bath.rectifield.json");
+      await waitRecomputed(n);
+      assert.deepEqual(await formState(), before);
+      assert.equal(await page.$$eval("#inputs script, #sections script", (x) => x.length), 0);
+    });
+
+    test("a share link restores every field in a new tab", async () => {
+      const before = await formState();
+      await page.click("#share_case");
+      const link = await page.$eval("#share-link", (e) => e.value);
+      assert.ok(link.startsWith(pathToFileURL(INDEX).href + "#scenario="), link.slice(0, 80));
+      const tab = await browser.newPage();
+      try {
+        tab.on("console", (msg) => {
+          if (msg.type() === "error") problems.push(`console error (link tab): ${msg.text()}`);
+        });
+        await tab.goto(link, { waitUntil: "load" });
+        await tab.waitForSelector('#results[data-state="current"]');
+        assert.deepEqual(await formState(tab), before);
+        assert.match(await tab.$eval("#case-msg", (e) => e.textContent), /from the link/);
+        // a damaged link leaves the page working, with a notice
+        await tab.goto(pathToFileURL(INDEX).href + "#scenario=%%%broken", { waitUntil: "load" });
+        await tab.reload({ waitUntil: "load" });
+        await tab.waitForSelector('#results[data-state="current"]');
+        assert.match(await tab.$eval("#case-msg", (e) => e.textContent), /could not be opened/);
+      } finally {
+        await tab.close();
+      }
+    });
+
+    test("the last session comes back after a reload, typed text included", async () => {
+      await typeInto("f_hz", "5x0");
+      await page.waitForSelector('#results[data-state="stale"]');
+      const before = await formState();
+      await page.reload({ waitUntil: "load" });
+      await page.waitForSelector("#f_hz-msg:not(:empty)");
+      assert.deepEqual(await formState(), before);
+      assert.equal(await page.$eval("#f_hz", (e) => e.value), "5x0");
+      const n = await typeInto("f_hz", "50");
+      await waitRecomputed(n);
+    });
+
+    test("corrupt storage is ignored with a notice", async () => {
+      await page.evaluate(() => localStorage.setItem("rectifield.session", "{not json"));
+      await page.reload({ waitUntil: "load" });
+      await page.waitForSelector('#results[data-state="current"]');
+      assert.match(await page.$eval("#case-msg", (e) => e.textContent), /could not be used/);
+      assert.equal(await page.$eval("#v_ll_rms_v", (e) => e.value), "400", "default case");
+      await page.evaluate(() => localStorage.setItem("rectifield.session", JSON.stringify({ store_version: 1, scenario: { supply: { v_ll_rms_v: "x" } } })));
+      await page.reload({ waitUntil: "load" });
+      await page.waitForSelector('#results[data-state="current"]');
+      assert.match(await page.$eval("#case-msg", (e) => e.textContent), /could not be used.*supply\.v_ll_rms_v/);
+    });
+
+    test("hostile, broken and oversized files leave the work untouched", async () => {
+      let n = await typeInto("v_ll_rms_v", "415");
+      await waitRecomputed(n);
+      const before = await formState();
+      const cases = [
+        ['{"supply": {"v_ll_rms_v": 48', "truncated.json", /not valid JSON/],
+        [JSON.stringify({ schema_version: 99 }), "future.json", /schema_version/],
+        [JSON.stringify({ supply: { volts: 400 } }), "unknown.json", /volts/],
+        ["[1,2,3]", "array.json", /object/],
+        ["x".repeat(1100000), "huge.json", /larger than 1 MB/],
+      ];
+      for (const [text, name, re] of cases) {
+        await openCaseFile(text, name);
+        await page.waitForFunction((nm) => document.querySelector("#case-msg").textContent.startsWith(nm), {}, name);
+        assert.match(await page.$eval("#case-msg", (e) => e.textContent), re, name);
+        assert.deepEqual(await formState(), before, `${name} changed the form`);
+      }
+      n = await openCaseFile({ name: '<img src=x onerror="window.__pwned=1">', notes: "<script>window.__pwned=2</script>" }, "hostile.json");
+      await waitRecomputed(n);
+      assert.equal(await page.$eval("#case_name", (e) => e.value), '<img src=x onerror="window.__pwned=1">');
+      assert.equal(await page.$$eval("img", (x) => x.length), 0);
+      assert.equal(await page.evaluate(() => window.__pwned), undefined);
+    });
+
+    test("an engine failure is reported and the inputs are kept", async () => {
+      await page.evaluate(() => {
+        window.__analyze = wasm_bindgen.analyze_json;
+        wasm_bindgen.analyze_json = () => {
+          throw new WebAssembly.RuntimeError("unreachable");
+        };
+      });
+      await typeInto("v_ll_rms_v", "433");
+      await page.waitForSelector("#engine-failure:not([hidden])");
+      assert.match(await page.$eval("#engine-failure", (e) => e.textContent), /inputs are kept/);
+      assert.equal(await page.$eval("#v_ll_rms_v", (e) => e.value), "433");
+      assert.equal(await page.$eval("#results", (e) => e.getAttribute("data-state")), "stale");
+      await page.evaluate(() => (wasm_bindgen.analyze_json = window.__analyze));
+      const n = await typeInto("v_ll_rms_v", "400");
+      await waitRecomputed(n);
+      assert.equal(await page.$eval("#engine-failure", (e) => e.hidden), true);
+    });
+
+    test("dark theme", async () => {
+      await page.click("#theme");
+      assert.equal(await page.evaluate(() => document.documentElement.getAttribute("data-theme")), "dark");
+      await page.waitForSelector("#plot-waves canvas");
+      await page.evaluate(() => window.scrollTo(0, 0));
+      await shot("dark");
+      await page.click("#theme");
+      assert.equal(await page.evaluate(() => document.documentElement.getAttribute("data-theme")), "light");
+    });
+
+    test("the print report renders (print media)", { skip: b.name !== "chromium" && "media emulation needs CDP, Chromium only" }, async () => {
+      await page.emulateMediaType("print");
+      try {
+        assert.equal(await page.$eval("#inputs", (e) => getComputedStyle(e).display), "none");
+        assert.notEqual(await page.$eval(".print-head", (e) => getComputedStyle(e).display), "none");
+        assert.match(await page.$eval(".print-head", (e) => e.textContent), /version \d+\.\d+\.\d+ · \d{4}-\d\d-\d\d/);
+        assert.notEqual(await page.$eval("#out-inputs", (e) => getComputedStyle(e).display), "none");
+        assert.ok((await page.$$eval("#print-inputs tr", (r) => r.length)) > 10, "inputs listed");
+        assert.notEqual(await page.$eval("#safety", (e) => getComputedStyle(e).display), "none");
+        await page.evaluate(() => window.scrollTo(0, 0));
+        await shot("print");
+      } finally {
+        await page.emulateMediaType(null);
+      }
+    });
+
+    test("portrait tablet layout: one column, nothing wider than the screen", async () => {
+      await page.setViewport({ width: 800, height: 1280 });
+      try {
+        await page.evaluate(() => window.scrollTo(0, 0));
+        const wide = await page.evaluate(() => document.documentElement.scrollWidth);
+        assert.ok(wide <= 800, `page scrolls sideways: ${wide} px`);
+        await shot("portrait");
+      } finally {
+        await page.setViewport({ width: 1180, height: 900 });
       }
     });
 
