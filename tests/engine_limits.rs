@@ -17,7 +17,7 @@ fn rl_case(kind: BridgeKind, alpha_deg: f64, l_s_h: f64) -> Scenario {
     s.bridge.kind = kind;
     s.bridge.alpha_deg = alpha_deg;
     s.dc.cap_f = 0.0;
-    // A large DC inductance makes the current nearly constant: L/R = 50 s.
+    // A large DC inductance makes the current nearly constant: L/R = 2.5 s.
     s.dc.load = DcLoad::Rle {
         r_ohm: 4.0,
         l_h: 200.0,

@@ -8,7 +8,7 @@ use rectifield::analysis::analyze;
 use rectifield::scenario::{BridgeKind, DcLoad, LineReactor, Scenario, SourceImpedance};
 use std::f64::consts::{PI, SQRT_2};
 
-/// Stiff source, near-constant DC current (L/R = 50 s): the textbook's assumptions.
+/// Stiff source, near-constant DC current (L/R = 2 s): the textbook's assumptions.
 fn ideal(kind: BridgeKind, alpha_deg: f64) -> Scenario {
     let mut s = Scenario::default();
     s.supply.v_ll_rms_v = 440.0;
@@ -23,7 +23,7 @@ fn ideal(kind: BridgeKind, alpha_deg: f64) -> Scenario {
     s.dc.cap_f = 0.0;
     s.dc.load = DcLoad::Rle {
         r_ohm: 5.0,
-        l_h: 250.0,
+        l_h: 10.0,
         e_v: 0.0,
     };
     s.analysis.rated_power_w = 40e3;

@@ -59,6 +59,8 @@ pub struct Built {
     /// Precharge: nodes across the bus for the bypass rule.
     pub bus_nodes: (Node, Node),
     pub has_contactor: bool,
+    /// The constant-power load is solved as a constant current (see `sim::simulate`).
+    pub cpl_constant_current: bool,
     /// Elements whose dissipation counts as loss (all but sources and the load).
     pub loss_elems: Vec<usize>,
 }
@@ -704,6 +706,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         cpl,
         bus_nodes: (q, n),
         has_contactor,
+        cpl_constant_current: false,
         loss_elems,
     }
 }

@@ -194,9 +194,10 @@ fn steady(
         // engine was built for, and a = P / V0 + g V0 (its parameter entry,
         // changed without rebuilding).  When V0 has moved more than 1 % from
         // Vg the engine is rebuilt with g = P / V0^2.
+        let cc = built.cpl_constant_current;
         let mut v_g = match eng.circuit.elements[eg] {
-            Element::Conductance { g_s, .. } => (p_w / -g_s).sqrt(),
-            _ => 1.0,
+            Element::Conductance { g_s, .. } if g_s < 0.0 => (p_w / -g_s).sqrt(),
+            _ => f64::NAN,
         };
         let mut v0_prev = f64::NAN;
         for _ in 0..40 {
@@ -209,11 +210,15 @@ fn steady(
                 ));
             }
             let converged = (mean_v - v0_prev).abs() < 1e-9 * mean_v;
-            if converged && (mean_v - v_g).abs() < CPL_REBUILD * v_g {
+            if converged && (cc || (mean_v - v_g).abs() < CPL_REBUILD * v_g) {
                 break;
             }
             v0_prev = mean_v;
-            if (mean_v - v_g).abs() >= CPL_REBUILD * v_g {
+            if cc {
+                // Constant current within the period, P / V0 on average.
+                eng.circuit.param = p_w / mean_v;
+                built.circuit.param = eng.circuit.param;
+            } else if (mean_v - v_g).abs() >= CPL_REBUILD * v_g {
                 v_g = mean_v;
                 let mut c = eng.circuit.clone();
                 if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
@@ -303,10 +308,80 @@ fn explain_failure(s: &Scenario, d: &Derived, e: SolveError) -> SolveError {
 }
 
 /// Run the simulation for a scenario.
+///
+/// A constant-power load is first linearised about the mean bus voltage
+/// (see `steady`).  That model holds for a modest ripple; when the solution
+/// shows a ripple above 25 % of the mean or a bus above the peak of the
+/// supply (the linearised negative resistance pumping an LC resonance), or
+/// when no periodic solution exists with it, the load is solved again as a
+/// current constant within the period (P / V0 on average), with a warning.
 pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
+    let first = simulate_with(s, d, false);
+    if !matches!(s.dc.load, DcLoad::ConstantPower { .. }) {
+        return first;
+    }
+    let peak = peak_supply_v(s);
+    let suspect = match &first {
+        Ok(r) => {
+            let v = &r.signals[r.roles.v_dc];
+            v.max - v.min > 0.25 * v.mean.abs() || v.max > 1.05 * peak
+        }
+        Err(_) => true,
+    };
+    if !suspect {
+        return first;
+    }
+    match simulate_with(s, d, true) {
+        Ok(mut r) => {
+            r.warnings.push(
+                "the constant-power load was solved as a current constant within the period (P / V_avg): the bus ripple is too large for its linearised model".into(),
+            );
+            Ok(r)
+        }
+        Err(e) => first.or(Err(e)),
+    }
+}
+
+/// Largest possible bus voltage from the supply alone (peak line-to-line,
+/// with unbalance and background harmonics; doubled for 12-pulse series).
+fn peak_supply_v(s: &Scenario) -> f64 {
+    let pu = s
+        .supply
+        .phase_magnitude_pu
+        .iter()
+        .cloned()
+        .fold(0.0, f64::max);
+    let h: f64 = s
+        .supply
+        .harmonics
+        .iter()
+        .map(|h| h.magnitude_pct.abs() / 100.0)
+        .sum();
+    let k = if s.bridge.kind == crate::scenario::BridgeKind::TwelvePulseSeries {
+        2.0
+    } else {
+        1.0
+    };
+    k * 2f64.sqrt() * s.supply.v_ll_rms_v * pu * (1.0 + h)
+}
+
+fn simulate_with(
+    s: &Scenario,
+    d: &Derived,
+    cpl_constant_current: bool,
+) -> Result<SimResult, SolveError> {
     let cfg = SimConfig::from_scenario(s);
     let period = 1.0 / s.supply.f_hz;
     let mut built = build::build(s, d);
+    if cpl_constant_current {
+        if let (Some((_, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
+            if let Element::Conductance { g_s, .. } = &mut built.circuit.elements[eg] {
+                *g_s = 0.0;
+            }
+            built.circuit.param = p_w / (0.9 * peak_supply_v(s));
+            built.cpl_constant_current = true;
+        }
+    }
     let (mut eng, st, stats) =
         steady(&mut built, s, &cfg, period).map_err(|e| explain_failure(s, d, e))?;
     let run = eng.run(
