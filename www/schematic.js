@@ -76,7 +76,7 @@
     const names = ["a", "b", "c"];
 
     // ---- source: three EMFs joined at a star point
-    const xs = 40;
+    const xs = 50;
     wire(`M${xs - 22} ${rows[0]} L${xs - 22} ${rows[2]}`);
     label(xs - 22, rows[2] + 24, "N", "lbl small");
     rows.forEach((y, i) => {
@@ -85,7 +85,7 @@
       add("path", { d: `M${xs - 7} ${y} q3.5 -7 7 0 t7 0`, class: "w thin" });
       label(xs, y - 17, names[i], "lbl small");
     });
-    label(xs, 62, `${eng(s.supply.v_ll_rms_v, "V")} ${eng(s.supply.f_hz, "Hz")}`, "lbl strong");
+    label(xs - 30, 62, `${eng(s.supply.v_ll_rms_v, "V")} ${eng(s.supply.f_hz, "Hz")}`, "lbl strong", "start");
 
     // ---- per phase: source impedance, PCC, reactor, (lost phase)
     const imp = (s.source && s.source.impedance) || {};
@@ -145,7 +145,7 @@
         { y0: 40, y1: 140, feed: 110, tag: "1" },
         { y0: 180, y1: 280, feed: 210, tag: "2" },
       ];
-      const legs = [450, 495, 540];
+      const legs = [450, 510, 570];
       bridges.forEach((b, bi) => {
         wire(`M380 ${b.feed} L420 ${b.feed}`);
         add("path", { d: `M396 ${b.feed - 7} l8 14 M402 ${b.feed - 7} l8 14 M408 ${b.feed - 7} l8 14`, class: "w thin" }); // three conductors
@@ -165,21 +165,21 @@
       if (kind === "twelve_pulse_series") {
         // bridge 1 negative to bridge 2 positive
         wire(`M580 140 L600 140 L600 180 L580 180`);
-        label(620, 164, "in series", "lbl small", "start");
+        label(650, 164, "in series", "lbl small", "start");
         wire(`M580 40 L640 40 L640 ${top}`);
         wire(`M580 280 L640 280`);
-        xOut = 640;
+        xOut = 670;
       } else {
         // both outputs together, the positives through an interphase reactor
         wire(`M580 40 L600 40 L600 70`);
         wire(`M580 180 L620 180 L620 70`);
         add("path", { d: "M600 70 a10 10 0 0 1 20 0", class: "w part" });
-        label(610, 60, "interphase", "lbl small");
+        label(640, 60, "interphase", "lbl small");
         wire(`M610 60 L610 ${top}`, "w thin");
         wire(`M580 140 L600 140 L600 280`);
         wire(`M580 280 L640 280`);
         wire(`M610 ${top} L640 ${top}`);
-        xOut = 640;
+        xOut = 670;
       }
     } else if (three) {
       const legs = [xB + 20, xB + 80, xB + 140];
@@ -254,7 +254,7 @@
         label(cx + 18, cy + 14, eng(dc.cap_f, "F"), "lbl small", "start");
         if (dc.cap_esr_ohm > 0) label(cx + 18, cy + 30, `ESR ${eng(dc.cap_esr_ohm, "Ω")}`, "lbl small", "start");
       });
-      x += 70;
+      x += 95;
     }
     if (dc.bleed_r_ohm > 0) {
       branch((cx, cy) => {
