@@ -320,7 +320,7 @@ cmd_bench() {
   # bench/run times the engine natively (examples/bench.rs) and in headless
   # Chromium (bench/wasm.mjs) against ngspice at matched accuracy, and writes
   # bench/report.md and bench/report.json.  Targets are printed, never asserted.
-  stage "prerequisites (apt: chromium, ngspice)" apt_ensure chromium ngspice
+  stage "prerequisites (apt: chromium, ngspice, time)" apt_ensure chromium ngspice time
   cmd_build
   stage "benchmark (native, wasm in Chromium, ngspice)" python3 bench/run "$@"
   summary
