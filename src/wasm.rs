@@ -131,3 +131,19 @@ pub fn sweep_point(scenario_json: &str, path: &str, x: f64) -> Result<JsValue, J
 pub fn summary_fields() -> Result<JsValue, JsValue> {
     to_js(&crate::sweep::SUMMARY_FIELDS.to_vec())
 }
+
+/// The field check: a `FieldInput` as JSON text in, the `FieldReport` object
+/// out (expected bus, fault signatures ranked against the readings, the
+/// safety panel).  Throws "field.path: reason" on bad input.
+#[wasm_bindgen]
+pub fn field_json(input_json: &str) -> Result<JsValue, JsValue> {
+    let inp = crate::field::from_json(input_json).map_err(|e| JsValue::from_str(&e.to_string()))?;
+    let r = crate::field::check(&inp).map_err(|e| JsValue::from_str(&e.to_string()))?;
+    to_js(&r)
+}
+
+/// An example field-check input (for the page's first view).
+#[wasm_bindgen]
+pub fn field_example() -> Result<JsValue, JsValue> {
+    to_js(&crate::field::FieldInput::default())
+}
