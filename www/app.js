@@ -1717,6 +1717,13 @@
     }
     $("#version").textContent = wasm_bindgen.version();
     $("#print-version").textContent = wasm_bindgen.version();
+    if (globalThis.RectifieldField) {
+      try {
+        globalThis.RectifieldField.start();
+      } catch (err) {
+        console.warn("field check not started:", err);
+      }
+    }
     defaults = wasm_bindgen.default_scenario();
     buildForm(defaults);
     base = defaults;
