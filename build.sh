@@ -198,6 +198,9 @@ assemble_dist() {
   mkdir -p "$DIST.tmp/vendor"
   cp "$up/dist/uPlot.iife.min.js" "$up/dist/uPlot.min.css" "$DIST.tmp/vendor/"
   cp "$up/LICENSE" "$DIST.tmp/vendor/uPlot.LICENSE"
+  # The single self-contained rectifield.html, and sw.js (every file of the
+  # build, versioned by a hash of them) for the installed copy (issue #11).
+  node tools/dist-extras.mjs "$DIST.tmp"
   rm -rf "$DIST"
   mv "$DIST.tmp" "$DIST"
   [ -f "$DIST/index.html" ] || die "www/index.html is missing"
