@@ -74,7 +74,8 @@ pub struct TopoData {
     /// `expm(F h)` for the grid step.
     pub step: Mat,
     /// `expm(F h (1 + x_j) / 2)` at the Gauss nodes of a full step.
-    pub gl: Vec<Mat>,
+    /// (Built on first use: only the recording period needs them.)
+    pub gl: std::cell::OnceCell<Vec<Mat>>,
     /// `table[i] = expm(F h / 2^i)`, i = 0..=TABLE_LEVELS.  Any time in a step,
     /// rounded to the finest level, is a product of these (they commute), so
     /// the state anywhere costs at most one matrix-vector product per level,
@@ -246,10 +247,7 @@ impl Engine {
             .map(|m| m.unwrap_or_else(|| Mat::zeros(0, 0)))
             .collect();
         let step = table[0].clone();
-        let mut gl = Vec::with_capacity(4);
-        for x in GL_X {
-            gl.push(expm(&topo.f.scale(self.h_s * (1.0 + x) / 2.0)).ok_or_else(bad)?);
-        }
+        let gl = std::cell::OnceCell::new();
         self.n_expm += TABLE_LEVELS + 1 - i0 + 4;
         let cond = (0..on.len())
             .map(|k| self.cond_row(&topo, k, on[k]))
@@ -518,7 +516,11 @@ impl Engine {
                     at_grid = false;
                 }
             }
-            let m_dt = self.ticks(t_next - t);
+            let mut m_dt = self.ticks(t_next - t);
+            if m_dt == 0 {
+                // A stop closer than one tick: take one tick so time always advances.
+                m_dt = 1;
+            }
             let dt = self.tick_time(m_dt);
             if at_grid {
                 // Land exactly on the grid point (no drift from tick rounding).
@@ -796,7 +798,29 @@ impl Engine {
         let mut out = Vec::with_capacity(4);
         for j in 0..4 {
             let (tau, zt) = if full {
-                (p.dt_s * (1.0 + GL_X[j]) / 2.0, td.gl[j].mul_vec(&p.z))
+                let gl = match td.gl.get() {
+                    Some(g) => g,
+                    None => {
+                        let mut v = Vec::with_capacity(4);
+                        for x in GL_X {
+                            v.push(
+                                expm(&td.topo.f.scale(self.h_s * (1.0 + x) / 2.0)).ok_or_else(
+                                    || {
+                                        fail(
+                                            "state matrix is not finite",
+                                            "check the element values",
+                                        )
+                                    },
+                                )?,
+                            );
+                        }
+                        let _ = td.gl.set(v);
+                        td.gl
+                            .get()
+                            .ok_or_else(|| fail("internal: Gauss matrices", "report this case"))?
+                    }
+                };
+                (p.dt_s * (1.0 + GL_X[j]) / 2.0, gl[j].mul_vec(&p.z))
             } else {
                 let m = self.ticks(p.dt_s * (1.0 + GL_X[j]) / 2.0);
                 (self.tick_time(m), Self::prop_vec(&td, m, &p.z))
