@@ -93,6 +93,7 @@ pub fn alpha_rad(s: &Scenario) -> f64 {
 
 /// Analyse one scenario.
 pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
+    let mut warnings = crate::validate::validate(s)?;
     let derived = params::derive(s)?;
     crate::compliance::validate(&s.compliance)?;
     let id = textbook_dc_current(s, &derived).unwrap_or(0.0);
@@ -105,7 +106,6 @@ pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
         i_d_a: id,
         h_max: s.analysis.h_max.clamp(1, 100),
     })?;
-    let mut warnings = Vec::new();
     let (sim, results) = match crate::sim::simulate(s, &derived) {
         Ok(sim) => {
             warnings.extend(sim.warnings.iter().cloned());

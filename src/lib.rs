@@ -19,6 +19,7 @@ pub mod scenario;
 pub mod sim;
 pub mod sweep;
 pub mod textbook;
+pub mod validate;
 
 #[cfg(target_arch = "wasm32")]
 pub mod wasm;
