@@ -76,6 +76,8 @@ pub struct TopoData {
     /// `expm(F h (1 + x_j) / 2)` at the Gauss nodes of a full step.
     /// (Built on first use: only the recording period needs them.)
     pub gl: std::cell::OnceCell<Vec<Mat>>,
+    /// The same for a whole coarse stride (mean values during the outer loop).
+    pub gl_coarse: std::cell::OnceCell<Vec<Mat>>,
     /// `table[i] = expm(F h / 2^i)`, i = 0..=TABLE_LEVELS.  Any time in a step,
     /// rounded to the finest level, is a product of these (they commute), so
     /// the state anywhere costs at most one matrix-vector product per level,
@@ -248,6 +250,7 @@ impl Engine {
             .collect();
         let step = table[0].clone();
         let gl = std::cell::OnceCell::new();
+        let gl_coarse = std::cell::OnceCell::new();
         self.n_expm += TABLE_LEVELS + 1 - i0 + 4;
         let cond = (0..on.len())
             .map(|k| self.cond_row(&topo, k, on[k]))
@@ -261,6 +264,7 @@ impl Engine {
             topo,
             step,
             gl,
+            gl_coarse,
             table,
             cond,
             up,
@@ -794,38 +798,46 @@ impl Engine {
     /// Evaluate the state at Gauss nodes of a recorded piece.
     pub fn gauss_states(&mut self, p: &Piece) -> Result<Vec<(f64, f64, Vec<f64>)>, SolveError> {
         let td = self.topo_key(p.key)?;
-        let full = (p.dt_s - self.h_s).abs() < 1e-9 * self.h_s;
+        let coarse_h = self.h_s * (1u64 << COARSE_LEVELS) as f64;
+        // Whole grid steps and whole coarse strides use cached Gauss-node
+        // exponentials; cut pieces go through the table.
+        let cached = if (p.dt_s - self.h_s).abs() < 1e-9 * self.h_s {
+            Some((&td.gl, self.h_s))
+        } else if (p.dt_s - coarse_h).abs() < 1e-9 * coarse_h {
+            Some((&td.gl_coarse, coarse_h))
+        } else {
+            None
+        };
         let mut out = Vec::with_capacity(4);
-        for j in 0..4 {
-            let (tau, zt) = if full {
-                let gl = match td.gl.get() {
-                    Some(g) => g,
-                    None => {
-                        let mut v = Vec::with_capacity(4);
-                        for x in GL_X {
-                            v.push(
-                                expm(&td.topo.f.scale(self.h_s * (1.0 + x) / 2.0)).ok_or_else(
-                                    || {
-                                        fail(
-                                            "state matrix is not finite",
-                                            "check the element values",
-                                        )
-                                    },
-                                )?,
-                            );
-                        }
-                        let _ = td.gl.set(v);
-                        td.gl
-                            .get()
-                            .ok_or_else(|| fail("internal: Gauss matrices", "report this case"))?
+        match cached {
+            Some((cell, h)) => {
+                if cell.get().is_none() {
+                    let mut v = Vec::with_capacity(4);
+                    for x in GL_X {
+                        v.push(expm(&td.topo.f.scale(h * (1.0 + x) / 2.0)).ok_or_else(|| {
+                            fail("state matrix is not finite", "check the element values")
+                        })?);
                     }
-                };
-                (p.dt_s * (1.0 + GL_X[j]) / 2.0, gl[j].mul_vec(&p.z))
-            } else {
-                let m = self.ticks(p.dt_s * (1.0 + GL_X[j]) / 2.0);
-                (self.tick_time(m), Self::prop_vec(&td, m, &p.z))
-            };
-            out.push((p.t_s + tau, GL_W[j] * p.dt_s / 2.0, zt));
+                    let _ = cell.set(v);
+                }
+                let gl = cell
+                    .get()
+                    .ok_or_else(|| fail("internal: Gauss matrices", "report this case"))?;
+                for j in 0..4 {
+                    let tau = p.dt_s * (1.0 + GL_X[j]) / 2.0;
+                    out.push((p.t_s + tau, GL_W[j] * p.dt_s / 2.0, gl[j].mul_vec(&p.z)));
+                }
+            }
+            None => {
+                for j in 0..4 {
+                    let m = self.ticks(p.dt_s * (1.0 + GL_X[j]) / 2.0);
+                    out.push((
+                        p.t_s + self.tick_time(m),
+                        GL_W[j] * p.dt_s / 2.0,
+                        Self::prop_vec(&td, m, &p.z),
+                    ));
+                }
+            }
         }
         Ok(out)
     }
