@@ -159,8 +159,14 @@ pub fn cos_window_max(lo_deg: f64, hi_deg: f64) -> f64 {
 ///   `sqrt2 V_LL max_window cos(|phi| - 30) > E + 2 V_th`.
 ///   In the three-pulse (star) bridge the bus is `v_a = V_p cos(phi)`, so
 ///   `V_p max_window cos(phi) > E + V_th`.  By symmetry the same holds for
-///   every device.  Checked on a balanced sinusoidal supply; otherwise only
-///   the bound below.
+///   every device.  That is for a start from zero current.  With continuous
+///   current a device turns on against the device it relieves, and the
+///   steady state needs the mean bus voltage above E: at most
+///   `Vdo cos(alpha)` (ideal, no overlap; overlap and resistance lower it),
+///   `Vdo = 3 sqrt2 V_LL / pi` (six-pulse) or `3 sqrt2 V_LL / (2 pi)`
+///   (three-pulse), see `textbook`.  The firing angle is refused only when
+///   both fail.  Checked on a balanced sinusoidal supply; otherwise only the
+///   bound below.
 /// * **Back-EMF above any voltage the bridge can make**: `E + n V_th` at or
 ///   above the highest line-to-line (or, three-pulse, phase) EMF peak,
 ///   counting every background harmonic at its full value.
@@ -676,7 +682,16 @@ pub fn validate(s: &Scenario) -> Result<Vec<String>, FieldError> {
                     "line-to-line",
                 )
             };
-            if e + v_drop_th >= best_v {
+            // Continuous conduction (a device turns on against the one it
+            // relieves, not against E) needs the ideal average
+            // `Vdo cos(alpha)` above E; overlap and resistance only lower it.
+            let vdo = if three_pulse {
+                3.0 * SQRT_2 / (2.0 * PI) * sup.v_ll_rms_v
+            } else {
+                3.0 * SQRT_2 / PI * sup.v_ll_rms_v
+            };
+            let v_cont = vdo * b.alpha_deg.to_radians().cos();
+            if e + v_drop_th >= best_v && e + v_drop_th >= v_cont {
                 return Err(fe(
                     "bridge.alpha_deg",
                     format!(
