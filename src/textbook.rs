@@ -222,6 +222,27 @@ pub fn evaluate(input: &TextbookInput) -> Result<TextbookResult, FieldError> {
         "h_max",
         "must be between 1 and 200",
     )?;
+    if input.i_d_a == 0.0 {
+        // No DC current: the shape figures (THD, distortion factor, VA/Pdo)
+        // do not depend on the current's size, so take them at 1 A.
+        let mut unit = input.clone();
+        unit.i_d_a = 1.0;
+        unit.l_s_h = 0.0;
+        let u = evaluate_inner(&unit)?;
+        let mut r = evaluate_inner(input)?;
+        r.thd_pct = u.thd_pct;
+        r.distortion_factor = u.distortion_factor;
+        r.power_factor = r.displacement_factor * u.distortion_factor;
+        r.va_per_pdo = u.va_per_pdo;
+        r.assumptions
+            .push("no DC current: THD, distortion factor and VA/Pdo are the shape values".into());
+        return Ok(r);
+    }
+    evaluate_inner(input)
+}
+
+fn evaluate_inner(input: &TextbookInput) -> Result<TextbookResult, FieldError> {
+    let v = input.v_ll_rms_v;
     let w = 2.0 * PI * input.f_hz;
     let id = input.i_d_a;
     let alpha = input.alpha_rad;

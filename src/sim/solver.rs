@@ -68,6 +68,11 @@ pub const TABLE_LEVELS: usize = 30;
 /// the grid step, and its periodicity is checked.
 pub const COARSE_LEVELS: usize = 3;
 
+/// Work bounds of one engine (a solve never hangs): periods marched, and
+/// switching events over all of them.
+pub const MAX_RUNS: usize = 600;
+pub const MAX_TOTAL_EVENTS: usize = 60_000;
+
 /// Cached data of one topology.
 pub struct TopoData {
     pub topo: Topology,
@@ -155,6 +160,8 @@ pub struct Engine {
     pub n_events: usize,
     /// Periods (or transient intervals) marched, and topologies built.
     pub n_runs: usize,
+    /// Switching events located over all runs of this engine.
+    pub total_events: usize,
     /// Newton periods march in coarse strides (see COARSE_LEVELS).
     pub coarse_newton: bool,
     pub n_topologies_built: usize,
@@ -194,6 +201,7 @@ impl Engine {
             n_expm: 0,
             n_events: 0,
             n_runs: 0,
+            total_events: 0,
             coarse_newton: true,
             n_topologies_built: 0,
             gate_times,
@@ -463,6 +471,12 @@ impl Engine {
     /// and switch states `on0`.
     pub fn run(&mut self, x0: &[f64], on0: &[bool], spec: &RunSpec) -> Result<RunOut, SolveError> {
         self.n_runs += 1;
+        if self.n_runs > MAX_RUNS {
+            return Err(fail(
+                "outside what this solver handles: the steady state needs too many periods",
+                "the circuit may have no periodic solution at the supply frequency; check the values for an extreme combination",
+            ));
+        }
         let nx = self.circuit.n_x();
         let nz = self.circuit.n_z();
         let mut z = self.circuit.init_z(x0);
@@ -656,6 +670,13 @@ impl Engine {
                     )?;
                     visited_now.push(Self::key(&on));
                     n_ev += 1;
+                    self.total_events += 1;
+                    if self.total_events > MAX_TOTAL_EVENTS {
+                        return Err(fail(
+                            "outside what this solver handles: too many switching events in this solve",
+                            "the devices chatter or the circuit is at an extreme; check the values (very large voltage with tiny impedances, or the reverse)",
+                        ));
+                    }
                     if n_ev > self.max_events {
                         return Err(fail(
                             "too many switching events",
