@@ -210,11 +210,26 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         let mut pcc: [Vec<(Basic, f64)>; 3] = Default::default();
         for k in 0..3 {
             let sn = net.node();
-            let wave_terms = phase_wave(s, k, shift, &orders, 1.0);
-            let wave: Vec<(usize, f64)> = wave_terms
-                .iter()
-                .flat_map(|&(i, c, sn_)| [(1 + 2 * i, c), (2 + 2 * i, sn_)])
-                .collect();
+            let terms = |k: usize| -> Vec<(usize, f64)> {
+                phase_wave(s, k, 0.0, &orders, 1.0)
+                    .iter()
+                    .flat_map(|&(i, c, sn_)| [(1 + 2 * i, c), (2 + 2 * i, sn_)])
+                    .collect()
+            };
+            let wave: Vec<(usize, f64)> = if shift != 0.0 {
+                // The delta secondary of an ideal Yd transformer with unit
+                // line-to-line ratio: v_k2 = (v_k - v_(k-1)) / sqrt3 of the star
+                // set (v_a2 = (v_a - v_c)/sqrt3 lags v_a by 30 degrees for the
+                // positive sequence).  Exact for unbalance and harmonics, and
+                // consistent with the primary current i_A = i_a1 + (i_a2 - i_b2)/sqrt3.
+                let mut w = terms(k);
+                for (col, c) in terms((k + 2) % 3) {
+                    w.push((col, -c));
+                }
+                w.iter().map(|&(col, c)| (col, c / 3f64.sqrt())).collect()
+            } else {
+                terms(k)
+            };
             src[k] = net.push(Element::VoltageSource {
                 a: sn,
                 b: neutral,
