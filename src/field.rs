@@ -492,28 +492,7 @@ pub const HIGH_Z_FACTOR: f64 = 5.0;
 /// the meter, percent (then the largest reading is taken as the supply).
 pub const MISSING_PHASE_UNBALANCE_PCT: f64 = 10.0;
 
-fn err(field: &str, reason: &str) -> FieldError {
-    FieldError {
-        field: field.into(),
-        reason: reason.into(),
-    }
-}
-
-fn pos(x: f64, field: &str) -> Result<f64, FieldError> {
-    if x.is_finite() && x > 0.0 {
-        Ok(x)
-    } else {
-        Err(err(field, "must be a positive number"))
-    }
-}
-
-fn nonneg(x: f64, field: &str) -> Result<f64, FieldError> {
-    if x.is_finite() && x >= 0.0 {
-        Ok(x)
-    } else {
-        Err(err(field, "must be zero or a positive number"))
-    }
-}
+use crate::params::{err, nonneg, pos};
 
 fn tol_ok(t: &Tolerance, field: &str) -> Result<(), FieldError> {
     nonneg(t.pct, &format!("{field}.pct"))?;

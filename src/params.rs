@@ -29,14 +29,14 @@ pub struct Derived {
     pub rated_current_a: f64,
 }
 
-fn err(field: &str, reason: &str) -> FieldError {
+pub(crate) fn err(field: &str, reason: &str) -> FieldError {
     FieldError {
         field: field.into(),
         reason: reason.into(),
     }
 }
 
-fn pos(x: f64, field: &str) -> Result<f64, FieldError> {
+pub(crate) fn pos(x: f64, field: &str) -> Result<f64, FieldError> {
     if x.is_finite() && x > 0.0 {
         Ok(x)
     } else {
@@ -44,7 +44,7 @@ fn pos(x: f64, field: &str) -> Result<f64, FieldError> {
     }
 }
 
-fn nonneg(x: f64, field: &str) -> Result<f64, FieldError> {
+pub(crate) fn nonneg(x: f64, field: &str) -> Result<f64, FieldError> {
     if x.is_finite() && x >= 0.0 {
         Ok(x)
     } else {

@@ -23,8 +23,9 @@ pub struct Probe {
     pub terms: Vec<(Basic, f64)>,
 }
 
-/// Which signals play which role (indexes into `probes`).
-#[derive(Debug, Clone, Default)]
+/// Which signals play which role (indexes into `probes`, which are also the
+/// indexes into `SimResult::signals`).
+#[derive(Debug, Clone, Default, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Roles {
     pub phase_v: [usize; 3],
     pub line_i: [usize; 3],

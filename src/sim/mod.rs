@@ -102,21 +102,8 @@ pub struct SimResult {
     pub transient: Option<Transient>,
 }
 
-/// Indexes of the signals with a role.
-#[derive(Debug, Clone, Serialize, Deserialize, PartialEq, Default)]
-pub struct RoleIndex {
-    pub phase_v: [usize; 3],
-    pub line_i: [usize; 3],
-    pub pcc_v: [usize; 3],
-    pub v_dc: usize,
-    pub i_dc: usize,
-    pub v_bridge: usize,
-    pub i_cap: Option<usize>,
-    pub i_load: usize,
-    pub i_choke: Option<usize>,
-    pub devices: Vec<(usize, usize)>,
-    pub secondary_i: Vec<[usize; 3]>,
-}
+/// Indexes of the signals with a role (the netlist builder's roles).
+pub type RoleIndex = build::Roles;
 
 /// Current row, voltage row and series resistance (negative: use v i) of a loss element.
 type LossRow = (Vec<f64>, Vec<f64>, f64);
@@ -683,19 +670,7 @@ fn simulate_with(
     } else {
         None
     };
-    let roles = RoleIndex {
-        phase_v: r.phase_v,
-        line_i: r.line_i,
-        pcc_v: r.pcc_v,
-        v_dc: r.v_dc,
-        i_dc: r.i_dc,
-        v_bridge: r.v_bridge,
-        i_cap: r.i_cap,
-        i_load: r.i_load,
-        i_choke: r.i_choke,
-        devices: r.devices.clone(),
-        secondary_i: r.secondary_i.clone(),
-    };
+    let roles = r.clone();
     Ok(SimResult {
         period_s: period,
         t_s: grid_t,
