@@ -437,7 +437,7 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
         utilisation_factor: if transformer_va > 0.0 { p_dc / transformer_va } else { 0.0 },
         capacitor,
     };
-    let comparisons = compare(s, tb, &line_currents, &total, &dc, &ratings);
+    let comparisons = compare(tb, &line_currents, &total, &dc, &ratings);
     let line_current_sum_max_a = if s.bridge.kind == BridgeKind::ThreePulseDiode
         || s.bridge.kind == BridgeKind::ThreePulseThyristor
     {
@@ -527,7 +527,6 @@ fn cmp(q: &str, unit: &str, tb: f64, ex: f64, assumption: &str) -> Comparison {
 }
 
 fn compare(
-    s: &Scenario,
     tb: &TextbookResult,
     lc: &[CurrentSpectrum],
     total: &PowerFigures,
@@ -586,6 +585,5 @@ fn compare(
         dev_rms,
         "Id/sqrt3 (six-pulse): 120-degree blocks of a ripple-free current",
     ));
-    let _ = s;
     out
 }

@@ -74,11 +74,6 @@ fn check_laws(s: &Scenario, a: &Analysis) -> Vec<String> {
     // twelve-pulse delta set once used a plain 30-degree shift, which missed
     // the balance under unbalance and harmonics by up to 2.2e-2; it is now the
     // exact delta transform of the star set).
-    let twelve = matches!(
-        s.bridge.kind,
-        BridgeKind::TwelvePulseSeries | BridgeKind::TwelvePulseParallel
-    );
-    let _ = twelve;
     let pbe_tol = 1e-3;
     if r.power_balance_error.abs() > pbe_tol {
         bad.push(format!("power balance error {:e}", r.power_balance_error));

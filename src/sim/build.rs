@@ -414,7 +414,7 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             // Parallel through an interphase reactor (two uncoupled halves).
             let l_half = (s.bridge.interphase_l_h / 2.0).max(1e-9);
             let pj = net.node();
-            for (bi, (bp, _)) in rails.iter().enumerate() {
+            for (bp, _) in rails.iter() {
                 let e = net.push(Element::Inductor {
                     a: *bp,
                     b: pj,
@@ -422,7 +422,6 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
                     r_ohm: 1e-4 * z_base,
                 });
                 net.guess.push((e, id_guess / 2.0, id_guess));
-                let _ = bi;
             }
             net.push(Element::Conductance {
                 a: rails[0].1,
@@ -444,10 +443,8 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
             b: q,
             g_s: 1.0 / s.dc.precharge_r_ohm,
         });
-        if s.dc.precharge_stuck {
-            // The bypass never closes: the resistor stays in circuit.
-            return_q(q)
-        } else {
+        // A stuck bypass never closes: then the resistor stays in circuit.
+        if !s.dc.precharge_stuck {
             net.push(Element::Switch {
                 a: m,
                 b: q,
@@ -457,8 +454,8 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
                 open: false,
             });
             has_contactor = true;
-            q
         }
+        q
     } else {
         m
     };
@@ -725,10 +722,6 @@ pub fn build(s: &Scenario, d: &Derived) -> Built {
         cpl_constant_current: false,
         loss_elems,
     }
-}
-
-fn return_q(q: Node) -> Node {
-    q
 }
 
 fn node_a(c: &Circuit, e: usize) -> Node {

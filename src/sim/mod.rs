@@ -173,7 +173,6 @@ fn steady(
     // The precharge bypass is closed in steady state.
     let x_guess = built.x_guess.clone();
     let mut st = solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 2, 40)?;
-    let mut outer = 0;
     let mut retired = (0usize, 0usize);
     if let (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
         // Outer loop on the linearisation point V0 = mean bus voltage.  The
@@ -188,7 +187,6 @@ fn steady(
         };
         let mut v0_prev = f64::NAN;
         for _ in 0..40 {
-            outer += 1;
             let mean_v = mean_of(&mut eng, built, built.roles.v_dc, &st)?;
             if mean_v.is_nan() || mean_v <= 0.0 {
                 return Err(err(
@@ -227,7 +225,6 @@ fn steady(
             st = solver::solve_periodic_from(&mut eng, &x0, &on0, &built.x_scale, 40)?;
         }
     }
-    let _ = outer;
     Ok((eng, st, retired))
 }
 
@@ -685,14 +682,10 @@ fn simulate_with(
         periods_marched: eng.n_runs + stats.0,
         topologies_built: eng.n_topologies_built + stats.1,
         residual: st.residual,
-        topologies: eng_topologies(&eng),
+        topologies: eng.cache_len(),
         warnings,
         transient,
     })
-}
-
-fn eng_topologies(e: &Engine) -> usize {
-    e.cache_len()
 }
 
 /// Power-up from a discharged bus: every state zero at t = 0, the precharge
