@@ -31,7 +31,8 @@ export const BROWSERS = [
         executablePath: exe,
         headless: true,
         userDataDir: profile,
-        // As in page.test.mjs: Firefox's own default for file:// pages.
+        // puppeteer relaxes this by default; with it relaxed a file:// page that
+        // would be broken for a real user (blocked sibling scripts) passes.
         extraPrefsFirefox: { "security.fileuri.strict_origin_policy": true },
       }),
   },

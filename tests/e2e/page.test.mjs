@@ -17,7 +17,7 @@ import fs from "node:fs";
 import os from "node:os";
 import path from "node:path";
 import { pathToFileURL } from "node:url";
-import puppeteer from "puppeteer-core";
+import { BROWSERS } from "./browsers.mjs";
 
 const DIST = path.resolve(process.env.RECTIFIELD_DIST || "dist");
 const INDEX = path.join(DIST, "index.html");
@@ -26,42 +26,6 @@ const ARTIFACTS = path.resolve("tests/artifacts");
 const K6 = (3 * Math.SQRT2) / Math.PI; // 1.3505
 const TIMEOUT = 45000;
 
-const BROWSERS = [
-  {
-    name: "chromium",
-    exe: process.env.CHROMIUM_BIN || "/usr/bin/chromium",
-    launch: (exe, profile) =>
-      puppeteer.launch({
-        browser: "chrome",
-        executablePath: exe,
-        headless: true,
-        userDataDir: profile,
-        args: [
-          "--no-sandbox",
-          "--disable-gpu",
-          "--disable-quic",
-          "--no-first-run",
-          "--disable-background-networking",
-          "--disable-component-update",
-          "--disable-sync",
-        ],
-      }),
-  },
-  {
-    name: "firefox",
-    exe: process.env.FIREFOX_BIN || "/usr/bin/firefox-esr",
-    launch: (exe, profile) =>
-      puppeteer.launch({
-        browser: "firefox",
-        executablePath: exe,
-        headless: true,
-        userDataDir: profile,
-        // puppeteer relaxes this by default; with it relaxed a file:// page that
-        // would be broken for a real user (blocked sibling scripts) passes.
-        extraPrefsFirefox: { "security.fileuri.strict_origin_policy": true },
-      }),
-  },
-];
 
 function close(got, want, rel) {
   return Math.abs(got - want) <= rel * Math.abs(want);
