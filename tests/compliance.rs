@@ -437,9 +437,11 @@ fn several_converters_scale_voltage_and_row() {
         assert!(close(a.value, b.value, 1e-9 * a.value.max(1.0)));
     }
     for (a, b) in c1.ieee519.voltage.iter().zip(&c3.ieee519.voltage) {
-        // (Orders the drive does not produce sit at rounding level in both.)
+        // (The supply EMF's own harmonics, zero in the circuit, come out at the
+        // quadrature's leakage level, below 1e-7 of its fundamental (1e-5 %),
+        // and are not tripled; see sim::solver::GL_X.)
         assert!(
-            close(3.0 * a.value, b.value, 1e-9 * b.value + 1e-9),
+            close(3.0 * a.value, b.value, 1e-9 * b.value + 1e-5),
             "{} {} {}",
             a.name,
             a.value,

@@ -1,92 +1,289 @@
-//! Radix-2 fast Fourier transform (iterative Cooley-Tukey; e.g. Press et al.,
-//! *Numerical Recipes*, 3rd ed., sec. 12.2), used for the harmonic integrals
-//! over the uniform part of the grid.  Checked against a direct sum below.
+//! Fast Fourier transform of any length whose prime factors are small
+//! (mixed-radix decimation in time, Cooley and Tukey 1965; e.g. Press et al.,
+//! *Numerical Recipes*, 3rd ed., sec. 12.2 for radix 2 and the general
+//! factorisation), used for the harmonic integrals over the uniform part of
+//! the grid.  A length with a prime factor above `MAX_RADIX` is summed
+//! directly for the bins asked for.  Checked against a direct sum below.
 
-/// In-place forward DFT `X[n] = sum_k x[k] exp(-i 2 pi n k / N)` of complex
-/// data given as (re, im) pairs; `N` must be a power of two.
-pub fn fft(x: &mut [(f64, f64)]) {
-    let n = x.len();
-    if n <= 1 {
+use std::f64::consts::PI;
+
+/// Complex number as (re, im).
+pub type C = (f64, f64);
+
+/// Largest prime factor handled by the FFT; beyond it the bins are summed
+/// directly (cost N per bin).
+pub const MAX_RADIX: usize = 7;
+
+fn smallest_factor(n: usize) -> usize {
+    if n % 4 == 0 && n > 4 {
+        // Radix 4 halves the number of passes of radix 2.
+        return 4;
+    }
+    let mut p = 2;
+    while p * p <= n {
+        if n % p == 0 {
+            return p;
+        }
+        p += 1;
+    }
+    n
+}
+
+/// Whether every prime factor of `n` is at most `MAX_RADIX`.
+pub fn is_smooth(mut n: usize) -> bool {
+    if n == 0 {
+        return false;
+    }
+    for p in 2..=MAX_RADIX {
+        while n % p == 0 {
+            n /= p;
+        }
+    }
+    n == 1
+}
+
+#[inline]
+fn cmul(a: C, b: C) -> C {
+    (a.0 * b.0 - a.1 * b.1, a.0 * b.1 + a.1 * b.0)
+}
+
+/// `out` = DFT of length `n` of `inp[0], inp[stride], ...`; `tw[e]` =
+/// `exp(-i 2 pi e / big_n)` with `n` dividing `big_n`.
+fn rec(inp: &[C], stride: usize, out: &mut [C], n: usize, tw: &[C], big_n: usize) {
+    let p = smallest_factor(n);
+    let m = n / p;
+    if m == 1 {
+        // A short prime (or 4) length: the defining sum.
+        let s = big_n / n;
+        for (q, o) in out.iter_mut().enumerate().take(n) {
+            let mut acc = inp[0];
+            let mut e = 0;
+            for j in 1..n {
+                e += q;
+                if e >= n {
+                    e -= n;
+                }
+                let t = cmul(inp[j * stride], tw[e * s]);
+                acc.0 += t.0;
+                acc.1 += t.1;
+            }
+            *o = acc;
+        }
         return;
     }
-    debug_assert!(n.is_power_of_two());
-    // Bit-reversal permutation.
-    let mut j = 0usize;
-    for i in 1..n {
-        let mut bit = n >> 1;
-        while j & bit != 0 {
-            j ^= bit;
-            bit >>= 1;
-        }
-        j |= bit;
-        if i < j {
-            x.swap(i, j);
-        }
+    for j in 0..p {
+        rec(
+            &inp[j * stride..],
+            stride * p,
+            &mut out[j * m..(j + 1) * m],
+            m,
+            tw,
+            big_n,
+        );
     }
-    let mut len = 2;
-    while len <= n {
-        let ang = -2.0 * std::f64::consts::PI / len as f64;
-        let (ws, wc) = ang.sin_cos();
-        for start in (0..n).step_by(len) {
-            let (mut cr, mut ci) = (1.0f64, 0.0f64);
-            for k in 0..len / 2 {
-                let (ar, ai) = x[start + k];
-                let (br, bi) = x[start + k + len / 2];
-                let (tr, ti) = (br * cr - bi * ci, br * ci + bi * cr);
-                x[start + k] = (ar + tr, ai + ti);
-                x[start + k + len / 2] = (ar - tr, ai - ti);
-                let nc = cr * wc - ci * ws;
-                ci = cr * ws + ci * wc;
-                cr = nc;
+    // X[k + m q] = sum_j W_n^{j k} Y_j[k] W_p^{j q}  (j k s < n s = big_n).
+    let s = big_n / n; // W_n^e = tw[e s]
+    let sp = big_n / p; // W_p^e = tw[e sp]
+    let mut y = [(0.0, 0.0); MAX_RADIX];
+    let mut x = [(0.0, 0.0); MAX_RADIX];
+    // W_p^e, e < p.
+    let mut wp = [(0.0, 0.0); MAX_RADIX];
+    for (e, w) in wp.iter_mut().enumerate().take(p) {
+        *w = tw[e * sp];
+    }
+    const S3: f64 = 0.866_025_403_784_438_6; // sin(60 deg)
+    for k in 0..m {
+        y[0] = out[k];
+        for j in 1..p {
+            y[j] = cmul(out[j * m + k], tw[j * k * s]);
+        }
+        match p {
+            2 => {
+                x[0] = (y[0].0 + y[1].0, y[0].1 + y[1].1);
+                x[1] = (y[0].0 - y[1].0, y[0].1 - y[1].1);
+            }
+            3 => {
+                let (a, b, c) = (y[0], y[1], y[2]);
+                let (sr, si) = (b.0 + c.0, b.1 + c.1);
+                let (dr, di) = (b.0 - c.0, b.1 - c.1);
+                let (mr, mi) = (a.0 - 0.5 * sr, a.1 - 0.5 * si);
+                // W_3 = -1/2 - i sin60: X1 = a - s/2 - i S3 d, X2 = a - s/2 + i S3 d.
+                x[0] = (a.0 + sr, a.1 + si);
+                x[1] = (mr + S3 * di, mi - S3 * dr);
+                x[2] = (mr - S3 * di, mi + S3 * dr);
+            }
+            4 => {
+                let (a, b, c, d) = (y[0], y[1], y[2], y[3]);
+                let (t0, t1) = ((a.0 + c.0, a.1 + c.1), (a.0 - c.0, a.1 - c.1));
+                let (t2, t3) = ((b.0 + d.0, b.1 + d.1), (b.0 - d.0, b.1 - d.1));
+                // W_4 = -i: (b - d)(-i) = (t3.1, -t3.0).
+                x[0] = (t0.0 + t2.0, t0.1 + t2.1);
+                x[1] = (t1.0 + t3.1, t1.1 - t3.0);
+                x[2] = (t0.0 - t2.0, t0.1 - t2.1);
+                x[3] = (t1.0 - t3.1, t1.1 + t3.0);
+            }
+            _ => {
+                for (q, xq) in x.iter_mut().enumerate().take(p) {
+                    let mut acc = y[0];
+                    let mut e = 0;
+                    for yj in y.iter().take(p).skip(1) {
+                        e += q;
+                        if e >= p {
+                            e -= p;
+                        }
+                        let t = cmul(*yj, wp[e]);
+                        acc.0 += t.0;
+                        acc.1 += t.1;
+                    }
+                    *xq = acc;
+                }
             }
         }
-        len <<= 1;
+        for (q, xq) in x.iter().enumerate().take(p) {
+            out[k + m * q] = *xq;
+        }
+    }
+}
+
+/// A transform length with its twiddle factors, reused over many sequences.
+pub struct Plan {
+    n: usize,
+    smooth: bool,
+    tw: Vec<C>,
+    scratch: Vec<C>,
+    z: Vec<C>,
+}
+
+impl Plan {
+    pub fn new(n: usize) -> Plan {
+        let smooth = is_smooth(n);
+        let tw = if smooth {
+            (0..n)
+                .map(|e| {
+                    let (s, c) = (-2.0 * PI * e as f64 / n as f64).sin_cos();
+                    (c, s)
+                })
+                .collect()
+        } else {
+            Vec::new()
+        };
+        Plan {
+            n,
+            smooth,
+            tw,
+            scratch: vec![(0.0, 0.0); n],
+            z: vec![(0.0, 0.0); n],
+        }
+    }
+
+    /// Forward DFT `X[n] = sum_k x[k] exp(-i 2 pi n k / N)` in place (length
+    /// smooth, see `is_smooth`).
+    pub fn fft(&mut self, x: &mut [C]) {
+        let n = self.n;
+        if n <= 1 || x.len() != n || !self.smooth {
+            return;
+        }
+        self.scratch.copy_from_slice(x);
+        rec(&self.scratch, 1, x, n, &self.tw, n);
+    }
+
+    /// DFTs of two real sequences of the plan's length, bins 0..=h_max (at
+    /// most N - 1): by one complex FFT of the packed sequence when the length
+    /// is smooth, else by direct sums of the bins asked for.
+    pub fn two_real(&mut self, a: &[f64], b: &[f64], h_max: usize) -> (Bins, Bins) {
+        let n = self.n;
+        let top = h_max.min(n.saturating_sub(1));
+        if !self.smooth {
+            let direct = |seq: &[f64]| -> Bins {
+                (0..=top)
+                    .map(|h| {
+                        let (s1, c1) = (-2.0 * PI * h as f64 / n as f64).sin_cos();
+                        let (mut c, mut s) = (1.0f64, 0.0f64);
+                        let (mut re, mut im) = (0.0, 0.0);
+                        for v in seq {
+                            re += v * c;
+                            im += v * s;
+                            let nc = c * c1 - s * s1;
+                            s = s * c1 + c * s1;
+                            c = nc;
+                        }
+                        (re, im)
+                    })
+                    .collect()
+            };
+            return (direct(a), direct(b));
+        }
+        let mut z = std::mem::take(&mut self.z);
+        for ((zk, &x), &y) in z.iter_mut().zip(a).zip(b) {
+            *zk = (x, y);
+        }
+        self.fft(&mut z);
+        let mut xa = Vec::with_capacity(top + 1);
+        let mut xb = Vec::with_capacity(top + 1);
+        for h in 0..=top {
+            let (zr, zi) = z[h];
+            let (cr, ci) = z[(n - h) % n];
+            // X_a = (Z[h] + conj Z[N-h]) / 2, X_b = (Z[h] - conj Z[N-h]) / (2i).
+            xa.push(((zr + cr) / 2.0, (zi - ci) / 2.0));
+            xb.push(((zi + ci) / 2.0, -(zr - cr) / 2.0));
+        }
+        self.z = z;
+        (xa, xb)
     }
 }
 
 /// Complex spectrum bins as (re, im).
-pub type Bins = Vec<(f64, f64)>;
+pub type Bins = Vec<C>;
 
-/// DFTs of two real sequences at once (packed as one complex sequence).
-/// Returns (X_a, X_b) for bins 0..=h_max.
+/// DFTs of two real sequences of the same length (see `Plan::two_real`).
 pub fn fft_two_real(a: &[f64], b: &[f64], h_max: usize) -> (Bins, Bins) {
-    let n = a.len();
-    let mut z: Vec<(f64, f64)> = a.iter().zip(b).map(|(&x, &y)| (x, y)).collect();
-    fft(&mut z);
-    let mut xa = Vec::with_capacity(h_max + 1);
-    let mut xb = Vec::with_capacity(h_max + 1);
-    for h in 0..=h_max.min(n - 1) {
-        let (zr, zi) = z[h];
-        let (cr, ci) = z[(n - h) % n];
-        // X_a = (Z[h] + conj Z[N-h]) / 2, X_b = (Z[h] - conj Z[N-h]) / (2i).
-        xa.push(((zr + cr) / 2.0, (zi - ci) / 2.0));
-        xb.push(((zi + ci) / 2.0, -(zr - cr) / 2.0));
-    }
-    (xa, xb)
+    Plan::new(a.len()).two_real(a, b, h_max)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
 
+    /// The oracle: the defining sum, term by term with fresh cos and sin.
+    fn direct(seq: &[f64], h: usize) -> C {
+        let n = seq.len();
+        let (mut re, mut im) = (0.0, 0.0);
+        for (k, v) in seq.iter().enumerate() {
+            let th = -2.0 * PI * ((h * k) % n) as f64 / n as f64;
+            re += v * th.cos();
+            im += v * th.sin();
+        }
+        (re, im)
+    }
+
     #[test]
     fn fft_matches_direct_sum() {
-        let n = 64;
-        let a: Vec<f64> = (0..n)
-            .map(|k| ((k * 7 % 13) as f64).sin() + 0.3 * k as f64)
-            .collect();
-        let b: Vec<f64> = (0..n).map(|k| ((k * k) as f64 * 0.1).cos()).collect();
-        let (xa, xb) = fft_two_real(&a, &b, 20);
-        for h in 0..=20 {
-            for (seq, x) in [(&a, xa[h]), (&b, xb[h])] {
-                let (mut re, mut im) = (0.0, 0.0);
-                for (k, v) in seq.iter().enumerate() {
-                    let th = -2.0 * std::f64::consts::PI * (h * k) as f64 / n as f64;
-                    re += v * th.cos();
-                    im += v * th.sin();
+        // Powers of two, mixed radices (720 = 2^4 3^2 5, 1000, 60 * 7),
+        // lengths with a prime factor beyond MAX_RADIX (direct path).
+        for n in [64usize, 1024, 720, 1000, 420, 62, 97, 1009, 2, 3, 5, 7, 14] {
+            let a: Vec<f64> = (0..n)
+                .map(|k| ((k * 7 % 13) as f64).sin() + 0.3 * k as f64)
+                .collect();
+            let b: Vec<f64> = (0..n).map(|k| ((k * k) as f64 * 0.1).cos()).collect();
+            let h_max = 40.min(n - 1);
+            let (xa, xb) = fft_two_real(&a, &b, h_max);
+            assert_eq!(xa.len(), h_max + 1);
+            for h in 0..=h_max {
+                for (seq, x) in [(&a, xa[h]), (&b, xb[h])] {
+                    let d = direct(seq, h);
+                    let tol = 1e-9 * n as f64;
+                    assert!(
+                        (d.0 - x.0).abs() < tol && (d.1 - x.1).abs() < tol,
+                        "n {n} h {h}: {d:?} vs {x:?}"
+                    );
                 }
-                assert!((re - x.0).abs() < 1e-10 && (im - x.1).abs() < 1e-10, "h{h}");
             }
         }
+    }
+
+    #[test]
+    fn smoothness() {
+        assert!(is_smooth(720) && is_smooth(1024) && is_smooth(7 * 8));
+        assert!(!is_smooth(11) && !is_smooth(37) && !is_smooth(2 * 1009) && !is_smooth(0));
     }
 }

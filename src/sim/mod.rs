@@ -105,8 +105,63 @@ pub struct SimResult {
 /// Indexes of the signals with a role (the netlist builder's roles).
 pub type RoleIndex = build::Roles;
 
-/// Current row, voltage row and series resistance (negative: use v i) of a loss element.
-type LossRow = (Vec<f64>, Vec<f64>, f64);
+/// The outputs of one topology as forms over the state `z`: every probe as a
+/// row of `c`, and the instantaneous dissipation as `z^T q z`, with
+/// `q = sum r i i^T` over inductor resistances, the symmetric part of
+/// `sum i v^T` over conductances and devices (current row `i`, voltage row
+/// `v` across the element), and `g_min sum v_n v_n^T` over the nodes' leakage
+/// to the reference.
+struct OutputForms {
+    c: linalg::Mat,
+    q: linalg::Mat,
+}
+
+impl OutputForms {
+    fn new(built: &Built, t: &Topology) -> OutputForms {
+        let nz = t.f.cols;
+        let n_probe = built.probes.len();
+        let mut c = linalg::Mat::zeros(n_probe, nz);
+        for (i, pr) in built.probes.iter().enumerate() {
+            let row = probe_row(pr, t, &built.circuit);
+            c.data[i * nz..(i + 1) * nz].copy_from_slice(&row);
+        }
+        let mut q = linalg::Mat::zeros(nz, nz);
+        let mut add_outer = |a: &[f64], b: &[f64], k: f64| {
+            for (i, ai) in a.iter().enumerate() {
+                if *ai == 0.0 {
+                    continue;
+                }
+                for (j, bj) in b.iter().enumerate() {
+                    q.data[i * nz + j] += k * ai * bj;
+                }
+            }
+        };
+        for &e in &built.loss_elems {
+            let iv = t.elem_i.row(e);
+            match built.circuit.elements[e] {
+                Element::Inductor { r_ohm, .. } => add_outer(iv, iv, r_ohm),
+                Element::Conductance { a, b, .. } | Element::Switch { a, b, .. } => {
+                    let vv: Vec<f64> = t
+                        .node_v
+                        .row(a)
+                        .iter()
+                        .zip(t.node_v.row(b))
+                        .map(|(x, y)| x - y)
+                        .collect();
+                    add_outer(iv, &vv, 0.5);
+                    add_outer(&vv, iv, 0.5);
+                }
+                _ => {}
+            }
+        }
+        let g_min = built.circuit.g_min_s;
+        for nn in 1..built.circuit.n_nodes {
+            let r = t.node_v.row(nn);
+            add_outer(r, r, g_min);
+        }
+        OutputForms { c, q }
+    }
+}
 
 fn probe_row(p: &Probe, t: &Topology, circuit: &circuit::Circuit) -> Vec<f64> {
     let mut row = vec![0.0; t.f.cols];
@@ -436,72 +491,36 @@ fn simulate_with(
     let mut p_load = 0.0;
     let w = 2.0 * PI / period;
     // Harmonic integrals: pieces that fill a whole grid step sit on a uniform
-    // grid, so their Gauss-node values form four uniform sequences whose sums
-    // against exp(-i h w t) are FFTs (radix 2 when the grid is a power of two);
-    // pieces cut by a switching instant are summed directly.
+    // grid, so their Gauss-node values form NG uniform sequences whose sums
+    // against exp(-i h w t) are FFTs (mixed radix; see `fft`); pieces cut by a
+    // switching instant are summed directly.
     let n_grid = cfg.grid_points;
-    let use_fft = n_grid.is_power_of_two() && n_grid >= 2 * (h_max + 1);
+    let use_fft = n_grid >= 2 * (h_max + 1);
     let h_step = period / n_grid as f64;
     let mut seq: Vec<Vec<Vec<f64>>> = if use_fft {
-        vec![vec![vec![0.0; n_grid]; harm_signals.len()]; 4]
+        vec![vec![vec![0.0; n_grid]; harm_signals.len()]; solver::NG]
     } else {
         Vec::new()
     };
-    let mut rows_cache: std::collections::HashMap<u64, Vec<Vec<f64>>> =
-        std::collections::HashMap::new();
     let mut vals = vec![0.0; n_probe];
     let mut p_loss = 0.0;
-    // Per topology: (current row, voltage row, is-inductor resistance) of each loss element.
-    let mut loss_cache: std::collections::HashMap<u64, Vec<LossRow>> =
-        std::collections::HashMap::new();
-    let g_min = built.circuit.g_min_s;
+    // Per topology: every probe as one matrix over z, and the dissipation as
+    // a quadratic form in z (see `OutputForms`).
+    let mut forms: std::collections::HashMap<u64, OutputForms> = std::collections::HashMap::new();
+    let mut qz = vec![0.0; built.circuit.n_z()];
     for p in &run.pieces {
-        if !loss_cache.contains_key(&p.key) {
+        if !forms.contains_key(&p.key) {
             let td = eng.topo_key(p.key)?;
-            let rows: Vec<LossRow> = built
-                .loss_elems
-                .iter()
-                .map(|&e| {
-                    let (a, b, r_l) = match built.circuit.elements[e] {
-                        Element::Conductance { a, b, .. } | Element::Switch { a, b, .. } => {
-                            (a, b, -1.0)
-                        }
-                        Element::Inductor { a, b, r_ohm, .. } => (a, b, r_ohm),
-                        _ => (0, 0, -1.0),
-                    };
-                    let iv = td.topo.elem_i.row(e).to_vec();
-                    let vv: Vec<f64> = td
-                        .topo
-                        .node_v
-                        .row(a)
-                        .iter()
-                        .zip(td.topo.node_v.row(b))
-                        .map(|(x, y)| x - y)
-                        .collect();
-                    (iv, vv, r_l)
-                })
-                .collect();
-            loss_cache.insert(p.key, rows);
+            forms.insert(p.key, OutputForms::new(&built, &td.topo));
         }
-        if !rows_cache.contains_key(&p.key) {
-            let td = eng.topo_key(p.key)?;
-            let rows: Vec<Vec<f64>> = built
-                .probes
-                .iter()
-                .map(|pr| probe_row(pr, &td.topo, &built.circuit))
-                .collect();
-            rows_cache.insert(p.key, rows);
-        }
-        let rows = &rows_cache[&p.key];
+        let fo = &forms[&p.key];
         // Ends of the piece count for min and max.
         let gs = eng.gauss_states(p)?;
-        for (i, row) in rows.iter().enumerate() {
-            let v = dot(row, &p.z);
-            mn[i] = mn[i].min(v);
-            mx[i] = mx[i].max(v);
+        fo.c.mul_vec_into(&p.z, &mut vals);
+        for i in 0..n_probe {
+            mn[i] = mn[i].min(vals[i]);
+            mx[i] = mx[i].max(vals[i]);
         }
-        let lrows = &loss_cache[&p.key];
-        let td_nodes = eng.topo_key(p.key)?;
         let full_k = if use_fft && (p.dt_s - h_step).abs() < 1e-9 * h_step {
             let k = (p.t_s / h_step).round() as usize;
             (k < n_grid && (p.t_s - k as f64 * h_step).abs() < 1e-9 * h_step).then_some(k)
@@ -509,25 +528,15 @@ fn simulate_with(
             None
         };
         for (gj, (t, wt, z)) in gs.into_iter().enumerate() {
-            for (iv, vv, r_l) in lrows {
-                let i = dot(iv, &z);
-                p_loss += wt
-                    * if *r_l >= 0.0 {
-                        r_l * i * i
-                    } else {
-                        i * dot(vv, &z)
-                    };
-            }
-            for nn in 1..built.circuit.n_nodes {
-                let vn = dot(td_nodes.topo.node_v.row(nn), &z);
-                p_loss += wt * g_min * vn * vn;
-            }
-            for (i, row) in rows.iter().enumerate() {
-                vals[i] = dot(row, &z);
-                sum[i] += wt * vals[i];
-                sum2[i] += wt * vals[i] * vals[i];
-                mn[i] = mn[i].min(vals[i]);
-                mx[i] = mx[i].max(vals[i]);
+            fo.q.mul_vec_into(&z, &mut qz);
+            p_loss += wt * dot(&qz, &z);
+            fo.c.mul_vec_into(&z, &mut vals);
+            for i in 0..n_probe {
+                let v = vals[i];
+                sum[i] += wt * v;
+                sum2[i] += wt * v * v;
+                mn[i] = mn[i].min(v);
+                mx[i] = mx[i].max(v);
             }
             for k in 0..3 {
                 p_phase[k] += wt * vals[r.phase_v[k]] * vals[r.line_i[k]];
@@ -556,13 +565,14 @@ fn simulate_with(
         }
     }
     if use_fft {
-        for gj in 0..4 {
+        let mut plan = fft::Plan::new(n_grid);
+        for gj in 0..solver::NG {
             let wt = solver::GL_W[gj] * h_step / 2.0;
             let c_j = h_step * (1.0 + solver::GL_X[gj]) / 2.0;
             let mut j = 0;
             while j < harm_signals.len() {
                 let j2 = (j + 1).min(harm_signals.len() - 1);
-                let (xa, xb) = fft::fft_two_real(&seq[gj][j], &seq[gj][j2], h_max);
+                let (xa, xb) = plan.two_real(&seq[gj][j], &seq[gj][j2], h_max);
                 let pairs: Vec<(usize, &Vec<(f64, f64)>)> = if j2 == j {
                     vec![(j, &xa)]
                 } else {
