@@ -145,9 +145,10 @@ prereq_test() { ensure_browsers; ensure_rust; ensure_node; }
 # ---------------------------------------------------------------- the page build
 
 build_wasm() {
-  # `cargo rustc --crate-type cdylib` so that the release profile's LTO is really
+  # `cargo rustc --crate-type cdylib` so that the profile's LTO is really
   # applied: with crate-type ["cdylib", "rlib"] a plain `cargo build` skips it.
-  cargo rustc --lib --release --target "$WASM_TARGET" --crate-type cdylib
+  # Profile wasm-release (Cargo.toml): the release profile with opt-level "s".
+  cargo rustc --lib --profile wasm-release --target "$WASM_TARGET" --crate-type cdylib
 }
 
 # newer OUT IN...: true when OUT is missing or older than any IN.
@@ -160,7 +161,7 @@ newer() {
 }
 
 bind_and_opt() {
-  local raw="target/$WASM_TARGET/release/$CRATE.wasm"
+  local raw="target/$WASM_TARGET/wasm-release/$CRATE.wasm"
   [ -f "$raw" ] || die "$raw was not built"
   mkdir -p "$WEB/bindgen"
   if newer "$WEB/bindgen/${CRATE}_bg.wasm" "$raw"; then
@@ -215,7 +216,7 @@ report_dist() {
 
 cmd_build() {
   stage "tools (rust target, wasm-bindgen-cli, npm)" prereq_build
-  stage "cargo rustc (release wasm, LTO)" build_wasm
+  stage "cargo rustc (wasm-release: LTO, opt-level s)" build_wasm
   stage "wasm-bindgen + wasm-opt + embed" bind_and_opt
   stage "assemble dist/" assemble_dist
   report_dist
@@ -307,7 +308,7 @@ cmd_test() {
   stage "wasm-bindgen tests in Node" wasm_tests
   stage "wasm-bindgen tests in headless Chromium" wasm_tests_chromium
   stage "engine boundary (cargo tree)" dep_boundary
-  stage "cargo rustc (release wasm, LTO)" build_wasm
+  stage "cargo rustc (wasm-release: LTO, opt-level s)" build_wasm
   stage "wasm-bindgen + wasm-opt + embed" bind_and_opt
   stage "assemble dist/" assemble_dist
   report_dist
