@@ -1700,6 +1700,14 @@
     return out;
   }
 
+  // The engine ships gzipped (rectifield_wasm.js, see build.sh): inflate it
+  // with the browser's own DecompressionStream (no network involved).
+  async function engineBytes() {
+    const gz = base64ToBytes(RECTIFIELD_WASM_GZIP_BASE64);
+    const wasm = new Blob([gz]).stream().pipeThrough(new DecompressionStream("gzip"));
+    return new Uint8Array(await new Response(wasm).arrayBuffer());
+  }
+
   async function start() {
     let theme = "light";
     try {
@@ -1709,7 +1717,7 @@
     }
     document.documentElement.setAttribute("data-theme", theme);
     // Async init: Chromium refuses synchronous compiles of large modules.
-    await wasm_bindgen({ module_or_path: base64ToBytes(RECTIFIELD_WASM_BASE64) });
+    await wasm_bindgen({ module_or_path: await engineBytes() });
     try {
       wasm_bindgen.install_panic_hook();
     } catch (_) {

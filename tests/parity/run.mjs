@@ -7,6 +7,7 @@
 import { readFileSync, readdirSync } from 'node:fs';
 import { execFileSync } from 'node:child_process';
 import vm from 'node:vm';
+import { gunzipSync } from 'node:zlib';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -19,8 +20,9 @@ const ctx = vm.createContext({ console, TextDecoder, TextEncoder, WebAssembly, U
 for (const f of ['rectifield_wasm.js', 'rectifield_glue.js']) {
   vm.runInContext(readFileSync(path.join(dist, f), 'utf8'), ctx, { filename: f });
 }
-vm.runInContext('this.__wb = wasm_bindgen; this.__b64 = RECTIFIELD_WASM_BASE64;', ctx);
-ctx.__bytes = new Uint8Array(Buffer.from(ctx.__b64, 'base64'));
+vm.runInContext('this.__wb = wasm_bindgen; this.__b64 = RECTIFIELD_WASM_GZIP_BASE64;', ctx);
+// The page inflates the gzipped engine with DecompressionStream; here zlib does.
+ctx.__bytes = new Uint8Array(gunzipSync(Buffer.from(ctx.__b64, 'base64')));
 // The init object must come from the sandbox's own realm (the glue checks its prototype).
 await vm.runInContext('__wb({ module_or_path: __bytes })', ctx);
 const wb = ctx.__wb;
