@@ -126,7 +126,7 @@ ensure_node() {
   fi
   local stamp="node_modules/.rectifield-lock"
   if [ -f "$stamp" ] && cmp -s package-lock.json "$stamp" && [ -x node_modules/.bin/wasm-opt ] \
-    && [ -f node_modules/uplot/dist/uPlot.iife.min.js ]; then
+    && [ -x node_modules/.bin/terser ] && [ -f node_modules/uplot/dist/uPlot.iife.min.js ]; then
     return 0
   fi
   say "npm ci (pinned: package-lock.json)"
@@ -204,6 +204,16 @@ assemble_dist() {
   cp -R www/. "$DIST.tmp/"
   cp "$WEB/${CRATE}_wasm.js" "$DIST.tmp/${CRATE}_wasm.js"
   cp "$WEB/bindgen/${CRATE}.js" "$DIST.tmp/${CRATE}_glue.js"
+  # Our scripts and the wasm-bindgen glue, minified by terser (npm, pinned):
+  # compress and mangle local names only (no --toplevel), so every global the
+  # scripts share (wasm_bindgen, RectifieldUnits, ...) keeps its name.  About
+  # 12 kB less gzipped in dist/ and again in rectifield.html.  The readable
+  # sources are www/ and target/web/bindgen/.
+  local js
+  for js in "$DIST.tmp"/*.js; do
+    node_modules/.bin/terser "$js" --compress --mangle --output "$js.min"
+    mv "$js.min" "$js"
+  done
   # The plotting library, vendored from npm (pinned in package-lock.json), with its licence.
   local up=node_modules/uplot
   [ -f "$up/dist/uPlot.iife.min.js" ] || die "$up missing: run npm ci (./build.sh installs it)"
