@@ -69,6 +69,27 @@ impl Mat {
         out
     }
 
+    /// `out = self * other`, without allocating (`out` has the right shape).
+    pub fn mul_into(&self, other: &Mat, out: &mut Mat) {
+        debug_assert_eq!(self.cols, other.rows);
+        debug_assert_eq!((out.rows, out.cols), (self.rows, other.cols));
+        let oc = other.cols;
+        out.data.iter_mut().for_each(|x| *x = 0.0);
+        for i in 0..self.rows {
+            let orow = &mut out.data[i * oc..(i + 1) * oc];
+            for k in 0..self.cols {
+                let a = self.data[i * self.cols + k];
+                if a == 0.0 {
+                    continue;
+                }
+                let brow = &other.data[k * oc..(k + 1) * oc];
+                for (o, b) in orow.iter_mut().zip(brow) {
+                    *o += a * b;
+                }
+            }
+        }
+    }
+
     /// `self * v`.
     pub fn mul_vec(&self, v: &[f64]) -> Vec<f64> {
         let mut out = vec![0.0; self.rows];

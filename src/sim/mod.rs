@@ -212,6 +212,12 @@ fn err(reason: &str, hint: &str) -> SolveError {
 
 /// Solve the periodic steady state (with the constant-power load's outer
 /// loop) and return the engine positioned at the solution.
+/// The constant-power load's failure when the mean bus voltage is not positive.
+const COLLAPSE: (&str, &str) = (
+    "the bus collapses under the constant-power load",
+    "the supply cannot deliver this power through its impedance; reduce the power or the impedance",
+);
+
 fn steady(
     built: &mut Built,
     s: &Scenario,
@@ -227,89 +233,80 @@ fn steady(
     );
     // The precharge bypass is closed in steady state.
     let x_guess = built.x_guess.clone();
-    let mut st = solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 2, 40)?;
+    let cpl = match (built.cpl, &s.dc.load) {
+        (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) => Some((eg, *p_w)),
+        _ => None,
+    };
+    let Some((eg, p_w)) = cpl else {
+        let st = solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 1, 40, None)?;
+        return Ok((eng, st, (0, 0)));
+    };
+    // The load is i = a - g v with g = P / Vg^2 fixed at the point Vg the
+    // engine was built for, and a = P / V0 + g V0 (its parameter entry, solved
+    // with the state: see `solver::ParamRule`), V0 the mean bus voltage.  When
+    // V0 ends more than CPL_REBUILD from Vg the engine is rebuilt with
+    // g = P / V0^2 and solved again from there.  As a current constant within
+    // the period (`cpl_constant_current`) the parameter is P / V0.
     let mut retired = (0usize, 0usize);
-    if let (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
-        // Outer loop on the linearisation point V0 = mean bus voltage.  The
-        // load is i = a - g v with g = P / Vg^2 fixed at the point Vg the
-        // engine was built for, and a = P / V0 + g V0 (its parameter entry,
-        // changed without rebuilding).  When V0 has moved more than 1 % from
-        // Vg the engine is rebuilt with g = P / V0^2.
-        let cc = built.cpl_constant_current;
-        let mut v_g = match eng.circuit.elements[eg] {
+    let cc = built.cpl_constant_current;
+    let v_dc_probe = built.probes[built.roles.v_dc].clone();
+    let circuit_for_rows = built.circuit.clone();
+    let row = |t: &Topology| probe_row(&v_dc_probe, t, &circuit_for_rows);
+    let mut st: Option<solver::SteadyState> = None;
+    for _ in 0..20 {
+        let v_g = match eng.circuit.elements[eg] {
             Element::Conductance { g_s, .. } if g_s < 0.0 => (p_w / -g_s).sqrt(),
             _ => f64::NAN,
         };
-        let mut v0_prev = f64::NAN;
-        for _ in 0..40 {
-            let mean_v = mean_of(&mut eng, built, built.roles.v_dc, &st)?;
-            if mean_v.is_nan() || mean_v <= 0.0 {
-                return Err(err(
-                    "the bus collapses under the constant-power load",
-                    "the supply cannot deliver this power through its impedance; reduce the power or the impedance",
-                ));
-            }
-            let converged = (mean_v - v0_prev).abs() < 1e-9 * mean_v;
-            if converged && (cc || (mean_v - v_g).abs() < CPL_REBUILD * v_g) {
-                break;
-            }
-            v0_prev = mean_v;
+        let target = |v: f64| -> f64 {
             if cc {
-                // Constant current within the period, P / V0 on average.
-                eng.circuit.param = p_w / mean_v;
-                built.circuit.param = eng.circuit.param;
-            } else if (mean_v - v_g).abs() >= CPL_REBUILD * v_g {
-                v_g = mean_v;
-                let mut c = eng.circuit.clone();
-                if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
-                    *g_s = -p_w / (v_g * v_g);
-                }
-                c.param = p_w / mean_v + p_w / mean_v;
-                built.circuit = c.clone();
-                let (it, vt) = (eng.i_tol_a, eng.v_tol_v);
-                retired.0 += eng.n_runs;
-                retired.1 += eng.n_topologies_built;
-                eng = Engine::new(c, period, cfg.grid_points, it, vt);
+                p_w / v
             } else {
-                let g = p_w / (v_g * v_g);
-                eng.circuit.param = p_w / mean_v + g * mean_v;
-                built.circuit.param = eng.circuit.param;
+                p_w / v + p_w / (v_g * v_g) * v
             }
-            let x0 = st.x0.clone();
-            let on0 = st.on0.clone();
-            st = solver::solve_periodic_from(&mut eng, &x0, &on0, &built.x_scale, 40)?;
+        };
+        let rule = solver::ParamRule {
+            row: &row,
+            target: &target,
+            tol_rel: 1e-9,
+            not_positive: COLLAPSE,
+            restart: &|v: f64| !cc && (v - v_g).abs() >= CPL_REBUILD * v_g,
+        };
+        let next = match &st {
+            None => solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 1, 40, Some(&rule)),
+            Some(prev) => solver::solve_periodic_from(
+                &mut eng,
+                &prev.x0,
+                &prev.on0,
+                &built.x_scale,
+                40,
+                Some(&rule),
+            ),
+        }?;
+        let mean_v = next.mean.unwrap_or(f64::NAN);
+        if mean_v.is_nan() || mean_v <= 0.0 {
+            return Err(err(COLLAPSE.0, COLLAPSE.1));
         }
+        built.circuit.param = eng.circuit.param;
+        if !next.restarted && (cc || (mean_v - v_g).abs() < CPL_REBUILD * v_g) {
+            st = Some(next);
+            break;
+        }
+        st = Some(next);
+        // Rebuild the incremental conductance about the new mean.
+        let mut c = eng.circuit.clone();
+        if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
+            *g_s = -p_w / (mean_v * mean_v);
+        }
+        c.param = 2.0 * p_w / mean_v;
+        built.circuit = c.clone();
+        let (it, vt) = (eng.i_tol_a, eng.v_tol_v);
+        retired.0 += eng.n_runs;
+        retired.1 += eng.n_topologies_built;
+        eng = Engine::new(c, period, cfg.grid_points, it, vt);
     }
+    let st = st.ok_or_else(|| err("internal: no steady state", "report this case"))?;
     Ok((eng, st, retired))
-}
-
-fn mean_of(
-    eng: &mut Engine,
-    built: &Built,
-    probe: usize,
-    st: &solver::SteadyState,
-) -> Result<f64, SolveError> {
-    let run = eng.run(
-        &st.x0,
-        &st.on0,
-        &RunSpec {
-            t0_s: 0.0,
-            t1_s: eng.period_s,
-            record: true,
-            sensitivity: false,
-            contactor_close: None,
-            coarse: true,
-        },
-    )?;
-    let mut acc = 0.0;
-    for p in &run.pieces {
-        let td = eng.topo_key(p.key)?;
-        let row = probe_row(&built.probes[probe], &td.topo, &built.circuit);
-        for (_, w, z) in eng.gauss_states(p)? {
-            acc += w * dot(&row, &z);
-        }
-    }
-    Ok(acc / eng.period_s)
 }
 
 /// Add the physics to a steady-state failure where it is known: a DC-link LC
@@ -447,8 +444,14 @@ fn simulate_with(
         .fold(0.0, f64::max);
     let (run, st) = if mismatch > 1e-7 {
         eng.coarse_newton = false;
-        let st2 =
-            solver::solve_periodic_from(&mut eng, &run.x_end, &run.on_end, &built.x_scale, 40)?;
+        let st2 = solver::solve_periodic_from(
+            &mut eng,
+            &run.x_end,
+            &run.on_end,
+            &built.x_scale,
+            40,
+            None,
+        )?;
         let run2 = eng.run(
             &st2.x0,
             &st2.on0,
@@ -506,16 +509,24 @@ fn simulate_with(
     let mut p_loss = 0.0;
     // Per topology: every probe as one matrix over z, and the dissipation as
     // a quadratic form in z (see `OutputForms`).
-    let mut forms: std::collections::HashMap<u64, OutputForms> = std::collections::HashMap::new();
-    let mut qz = vec![0.0; built.circuit.n_z()];
-    for p in &run.pieces {
-        if !forms.contains_key(&p.key) {
-            let td = eng.topo_key(p.key)?;
-            forms.insert(p.key, OutputForms::new(&built, &td.topo));
+    let mut forms: solver::KeyMap<OutputForms> = solver::KeyMap::default();
+    for key in run
+        .pieces
+        .iter()
+        .map(|p| p.key)
+        .chain(run.knots.iter().map(|k| k.1))
+    {
+        if !forms.contains_key(&key) {
+            let td = eng.topo_key(key)?;
+            forms.insert(key, OutputForms::new(&built, &td.topo));
         }
+    }
+    let mut qz = vec![0.0; built.circuit.n_z()];
+    let mut gs = Vec::new();
+    for p in &run.pieces {
         let fo = &forms[&p.key];
         // Ends of the piece count for min and max.
-        let gs = eng.gauss_states(p)?;
+        eng.gauss_states_into(p, &mut gs)?;
         fo.c.mul_vec_into(&p.z, &mut vals);
         for i in 0..n_probe {
             mn[i] = mn[i].min(vals[i]);
@@ -527,10 +538,11 @@ fn simulate_with(
         } else {
             None
         };
-        for (gj, (t, wt, z)) in gs.into_iter().enumerate() {
-            fo.q.mul_vec_into(&z, &mut qz);
-            p_loss += wt * dot(&qz, &z);
-            fo.c.mul_vec_into(&z, &mut vals);
+        for (gj, (t, wt, z)) in gs.iter().enumerate() {
+            let (t, wt) = (*t, *wt);
+            fo.q.mul_vec_into(z, &mut qz);
+            p_loss += wt * dot(&qz, z);
+            fo.c.mul_vec_into(z, &mut vals);
             for i in 0..n_probe {
                 let v = vals[i];
                 sum[i] += wt * v;
@@ -593,27 +605,15 @@ fn simulate_with(
     }
     let grid_t: Vec<f64> = run.knots.iter().map(|k| k.0).collect();
     let mut signals = Vec::with_capacity(n_probe);
-    let mut knot_rows: std::collections::HashMap<u64, Vec<Vec<f64>>> =
-        std::collections::HashMap::new();
+    // Samples on the grid: every probe at every knot, through the knot's forms.
+    let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(run.knots.len()); n_probe];
     for k in &run.knots {
-        if !knot_rows.contains_key(&k.1) {
-            let td = eng.topo_key(k.1)?;
-            knot_rows.insert(
-                k.1,
-                built
-                    .probes
-                    .iter()
-                    .map(|pr| probe_row(pr, &td.topo, &built.circuit))
-                    .collect(),
-            );
+        forms[&k.1].c.mul_vec_into(&k.2, &mut vals);
+        for (smp, v) in samples.iter_mut().zip(&vals) {
+            smp.push(*v);
         }
     }
-    for (i, pr) in built.probes.iter().enumerate() {
-        let samples: Vec<f64> = run
-            .knots
-            .iter()
-            .map(|k| dot(&knot_rows[&k.1][i], &k.2))
-            .collect();
+    for ((i, pr), samples) in built.probes.iter().enumerate().zip(samples) {
         let mean = sum[i] / period;
         let rms = (sum2[i] / period).max(0.0).sqrt();
         let harmonics = match harm_signals.iter().position(|&x| x == i) {
