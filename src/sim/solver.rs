@@ -190,8 +190,6 @@ pub struct TopoData {
     /// `expm(F h (1 + x_j) / 2)` at the Gauss nodes of a full step.
     /// (Built on first use: only the recording period needs them.)
     pub gl: std::cell::OnceCell<Vec<Mat>>,
-    /// The same for a whole coarse stride (mean values during the outer loop).
-    pub gl_coarse: std::cell::OnceCell<Vec<Mat>>,
     /// `table[i] = expm(F h / 2^i)`, i = 0..=TABLE_LEVELS.  Any time in a step,
     /// rounded to the finest level, is a product of these (they commute), so
     /// the state anywhere costs at most one matrix-vector product per level,
@@ -348,7 +346,6 @@ impl Engine {
         let table = dyadic_table(&topo.f, self.h_s).ok_or_else(bad)?;
         let step = table[0].clone();
         let gl = std::cell::OnceCell::new();
-        let gl_coarse = std::cell::OnceCell::new();
         let cond = (0..on.len())
             .map(|k| self.cond_row(&topo, k, on[k]))
             .collect();
@@ -361,7 +358,6 @@ impl Engine {
             topo,
             step,
             gl,
-            gl_coarse,
             table,
             cond,
             up,
@@ -936,13 +932,10 @@ impl Engine {
         out: &mut Vec<(f64, f64, Vec<f64>)>,
     ) -> Result<(), SolveError> {
         let td = self.topo_key(p.key)?;
-        let coarse_h = self.h_s * (1u64 << COARSE_LEVELS) as f64;
-        // Whole grid steps and whole coarse strides use cached Gauss-node
-        // exponentials; cut pieces go through the table.
+        // Whole grid steps use cached Gauss-node exponentials; cut pieces go
+        // through the table.
         let cached = if (p.dt_s - self.h_s).abs() < 1e-9 * self.h_s {
             Some((&td.gl, self.h_s))
-        } else if (p.dt_s - coarse_h).abs() < 1e-9 * coarse_h {
-            Some((&td.gl_coarse, coarse_h))
         } else {
             None
         };
@@ -1058,19 +1051,26 @@ pub fn solve_periodic(
     solve_periodic_from(eng, &x0, &on0, x_scale, max_iter, rule)
 }
 
-/// The period mean of `rule`'s signal over a recorded run.
+/// The period mean of `rule`'s signal over a recorded run: Simpson's rule on
+/// each piece (error `tau^5 f''''(xi) / 2880`, Abramowitz and Stegun 25.4.5):
+/// the end of a piece is the start of the next, and the midpoint of a whole
+/// coarse stride is one table level, so a piece costs about one matrix-vector
+/// product.  (Over a coarse stride of 8 grid steps the error is below 1e-8
+/// of the mean for a bus whose ripple is a few percent at 6 f; the
+/// recording period's own figures use Gauss-Legendre on the fine grid.)
 fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<f64, SolveError> {
     let mut acc = 0.0;
     let mut rows: KeyMap<Vec<f64>> = KeyMap::default();
-    for p in &run.pieces {
-        if !rows.contains_key(&p.key) {
-            let td = eng.topo_key(p.key)?;
-            rows.insert(p.key, (rule.row)(&td.topo));
-        }
-        let row = &rows[&p.key];
-        for (_, w, z) in eng.gauss_states(p)? {
-            acc += w * dot(row, &z);
-        }
+    for (i, p) in run.pieces.iter().enumerate() {
+        let td = eng.topo_key(p.key)?;
+        let row = rows.entry(p.key).or_insert_with(|| (rule.row)(&td.topo));
+        let m = eng.ticks(p.dt_s);
+        let z_mid = Engine::prop_vec(&td, m / 2, &p.z);
+        let v_end = match run.pieces.get(i + 1) {
+            Some(next) => dot(row, &next.z),
+            None => dot(row, &Engine::prop_vec(&td, m, &p.z)),
+        };
+        acc += p.dt_s / 6.0 * (dot(row, &p.z) + 4.0 * dot(row, &z_mid) + v_end);
     }
     Ok(acc / eng.period_s)
 }
