@@ -152,6 +152,9 @@ pub struct Plan {
     tw: Vec<C>,
     scratch: Vec<C>,
     z: Vec<C>,
+    /// Bit-reversal permutation, for a power-of-two length (the iterative
+    /// radix-2 path; the default grid is 1024).
+    rev: Vec<usize>,
 }
 
 impl Plan {
@@ -167,12 +170,56 @@ impl Plan {
         } else {
             Vec::new()
         };
+        let rev = if n.is_power_of_two() && n > 1 {
+            let bits = n.trailing_zeros();
+            (0..n)
+                .map(|i| i.reverse_bits() >> (usize::BITS - bits))
+                .collect()
+        } else {
+            Vec::new()
+        };
         Plan {
             n,
             smooth,
             tw,
             scratch: vec![(0.0, 0.0); n],
             z: vec![(0.0, 0.0); n],
+            rev,
+        }
+    }
+
+    /// Iterative radix-2 decimation in time (Cooley and Tukey 1965; e.g.
+    /// Press et al., *Numerical Recipes*, 3rd ed., sec. 12.2.1): bit-reversal
+    /// permutation, then log2 N passes of butterflies with the twiddles from
+    /// the table.  A power-of-two length only.
+    fn fft_pow2(&self, x: &mut [C]) {
+        let n = self.n;
+        for (i, &j) in self.rev.iter().enumerate() {
+            if i < j {
+                x.swap(i, j);
+            }
+        }
+        // First pass (len 2): the twiddle is 1.
+        for pair in x.chunks_exact_mut(2) {
+            let (a, b) = (pair[0], pair[1]);
+            pair[0] = (a.0 + b.0, a.1 + b.1);
+            pair[1] = (a.0 - b.0, a.1 - b.1);
+        }
+        let mut len = 4;
+        while len <= n {
+            let half = len / 2;
+            let stride = n / len;
+            for block in x.chunks_exact_mut(len) {
+                let (lo, hi) = block.split_at_mut(half);
+                for (k, (a, b)) in lo.iter_mut().zip(hi.iter_mut()).enumerate() {
+                    let w = self.tw[k * stride];
+                    let t = cmul(*b, w);
+                    let u = *a;
+                    *a = (u.0 + t.0, u.1 + t.1);
+                    *b = (u.0 - t.0, u.1 - t.1);
+                }
+            }
+            len *= 2;
         }
     }
 
@@ -181,6 +228,10 @@ impl Plan {
     pub fn fft(&mut self, x: &mut [C]) {
         let n = self.n;
         if n <= 1 || x.len() != n || !self.smooth {
+            return;
+        }
+        if !self.rev.is_empty() {
+            self.fft_pow2(x);
             return;
         }
         self.scratch.copy_from_slice(x);

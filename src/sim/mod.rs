@@ -523,6 +523,17 @@ fn simulate_with(
     }
     let mut qz = vec![0.0; built.circuit.n_z()];
     let mut gs = Vec::new();
+    // Samples on the grid: every probe at every knot.  A knot is where the
+    // piece starting there starts (same instant, topology and state), so its
+    // values are the piece's start values; others are evaluated on their own.
+    let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(run.knots.len()); n_probe];
+    let mut knot_i = 0;
+    let push_knot = |v: &[f64], samples: &mut Vec<Vec<f64>>| {
+        for (smp, x) in samples.iter_mut().zip(v) {
+            smp.push(*x);
+        }
+    };
+    let mut knot_vals = vec![0.0; n_probe];
     for p in &run.pieces {
         let fo = &forms[&p.key];
         // Ends of the piece count for min and max.
@@ -531,6 +542,18 @@ fn simulate_with(
         for i in 0..n_probe {
             mn[i] = mn[i].min(vals[i]);
             mx[i] = mx[i].max(vals[i]);
+        }
+        while let Some(k) = run.knots.get(knot_i) {
+            if k.0 > p.t_s {
+                break;
+            }
+            if k.0 == p.t_s && k.1 == p.key && k.2 == p.z {
+                push_knot(&vals, &mut samples);
+            } else {
+                forms[&k.1].c.mul_vec_into(&k.2, &mut knot_vals);
+                push_knot(&knot_vals, &mut samples);
+            }
+            knot_i += 1;
         }
         let full_k = if use_fft && (p.dt_s - h_step).abs() < 1e-9 * h_step {
             let k = (p.t_s / h_step).round() as usize;
@@ -605,13 +628,10 @@ fn simulate_with(
     }
     let grid_t: Vec<f64> = run.knots.iter().map(|k| k.0).collect();
     let mut signals = Vec::with_capacity(n_probe);
-    // Samples on the grid: every probe at every knot, through the knot's forms.
-    let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(run.knots.len()); n_probe];
-    for k in &run.knots {
-        forms[&k.1].c.mul_vec_into(&k.2, &mut vals);
-        for (smp, v) in samples.iter_mut().zip(&vals) {
-            smp.push(*v);
-        }
+    // The knots after the last piece's start (the end of the period).
+    for k in &run.knots[knot_i.min(run.knots.len())..] {
+        forms[&k.1].c.mul_vec_into(&k.2, &mut knot_vals);
+        push_knot(&knot_vals, &mut samples);
     }
     for ((i, pr), samples) in built.probes.iter().enumerate().zip(samples) {
         let mean = sum[i] / period;

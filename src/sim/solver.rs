@@ -200,6 +200,9 @@ pub struct TopoData {
     pub cond: Vec<Vec<f64>>,
     /// `up[c] = expm(F h 2^c)`, c = 0..=COARSE_LEVELS (squarings of the step).
     pub up: Vec<Mat>,
+    /// Each level's block over the physical states and the parameter (the
+    /// sensitivity's rows and columns, see `prop_sens`), indexed by tick bit.
+    pub sub_levels: Vec<Mat>,
 }
 
 /// A recorded piece of trajectory: from `t_s` for `dt_s` in topology `key`, starting at `z`.
@@ -354,6 +357,24 @@ impl Engine {
             let m = up[c].mul(&up[c]);
             up.push(m);
         }
+        let sub = self.sens_index();
+        let na = sub.len();
+        let sub_levels = (0..=TABLE_LEVELS + COARSE_LEVELS)
+            .map(|b| {
+                let lv = if b >= TABLE_LEVELS {
+                    &up[b - TABLE_LEVELS]
+                } else {
+                    &table[TABLE_LEVELS - b]
+                };
+                let mut m = Mat::zeros(na, na);
+                for (i, &zi) in sub.iter().enumerate() {
+                    for (k, &zk) in sub.iter().enumerate() {
+                        m.data[i * na + k] = lv.at(zi, zk);
+                    }
+                }
+                m
+            })
+            .collect();
         let d = Rc::new(TopoData {
             topo,
             step,
@@ -361,6 +382,7 @@ impl Engine {
             table,
             cond,
             up,
+            sub_levels,
         });
         if self.cache.len() < 4096 {
             self.cache.insert(key, d.clone());
@@ -408,31 +430,24 @@ impl Engine {
     }
 
     /// The sensitivity `S <- expm(F tau) S` via the table, where `S` holds
-    /// `d z_i / d theta_j` for `i, j` over `sub` (the physical states and the
+    /// `d z_i / d theta_j` for `i, j` over `sens_index` (the physical states and the
     /// parameter: the oscillator and constant entries of `z` do not depend on
     /// the initial state or the parameter, so their rows of `S` are zero and
-    /// only the `sub` block of each level matrix acts).  `tmp` is scratch of
+    /// only that block of each level matrix, `sub_levels`, acts).  `tmp` is scratch of
     /// the same shape.
-    pub fn prop_sens(td: &TopoData, m: u64, sub: &[usize], s: &mut Mat, tmp: &mut Mat) {
-        let na = sub.len();
+    pub fn prop_sens(td: &TopoData, m: u64, s: &mut Mat, tmp: &mut Mat) {
         for b in set_bits_down(m) {
-            let lv = Self::level(td, b);
-            let nz = lv.cols;
-            tmp.data.iter_mut().for_each(|x| *x = 0.0);
-            for (i, &zi) in sub.iter().enumerate() {
-                let orow = &mut tmp.data[i * na..(i + 1) * na];
-                for (k, &zk) in sub.iter().enumerate() {
-                    let a = lv.data[zi * nz + zk];
-                    if a == 0.0 {
-                        continue;
-                    }
-                    for (o, x) in orow.iter_mut().zip(&s.data[k * na..(k + 1) * na]) {
-                        *o += a * x;
-                    }
-                }
-            }
+            td.sub_levels[b].mul_into(s, tmp);
             std::mem::swap(s, tmp);
         }
+    }
+
+    /// The entries of `z` the sensitivity follows: the physical states and
+    /// the parameter.
+    fn sens_index(&self) -> Vec<usize> {
+        let mut sub: Vec<usize> = (0..self.circuit.n_x()).collect();
+        sub.push(self.circuit.param_idx());
+        sub
     }
 
     fn gate_active(&self, kind: &SwitchKind, t_s: f64) -> bool {
@@ -586,8 +601,7 @@ impl Engine {
         let mut knots = Vec::new();
         let mut td = self.settle(&mut on, &z, spec.t0_s, &mut events, None)?;
         // Sensitivity of (x, p) to (x0, p0): rows and columns over `sub`.
-        let mut sub: Vec<usize> = (0..nx).collect();
-        sub.push(self.circuit.param_idx());
+        let sub = self.sens_index();
         let na = sub.len();
         let mut sens = if spec.sensitivity {
             Some(Mat::identity(na))
@@ -613,7 +627,15 @@ impl Engine {
         let end_tol = 1e-12 * self.period_s;
         while t < spec.t1_s - end_tol {
             // Next stop: the next grid point, a gate opening, or the end.
-            let mut t_next = ((grid_index + 1) as f64 * h).min(spec.t1_s);
+            // Coarse (Newton) runs stride freely from the last event: one
+            // partial step per event instead of two (the grid only matters
+            // for the recorded samples of the fine run).
+            let grid_next = if spec.coarse {
+                t + h
+            } else {
+                (grid_index + 1) as f64 * h
+            };
+            let mut t_next = grid_next.min(spec.t1_s);
             let mut at_grid = true;
             let base = (t / self.period_s).floor() * self.period_s;
             for &g in &self.gate_times {
@@ -640,9 +662,11 @@ impl Engine {
                 m_dt = 1;
             }
             let dt = self.tick_time(m_dt);
-            if at_grid {
+            if at_grid && !spec.coarse {
                 // Land exactly on the grid point (no drift from tick rounding).
                 t_next = ((grid_index + 1) as f64 * h).min(spec.t1_s);
+            } else if at_grid && t_next >= spec.t1_s {
+                t_next = spec.t1_s;
             } else {
                 t_next = t + dt;
             }
@@ -718,7 +742,7 @@ impl Engine {
                     }
                     if let Some(s) = sens.as_mut() {
                         let m_tau = self.ticks(tau);
-                        Self::prop_sens(&td, m_tau, &sub, s, &mut sens_tmp);
+                        Self::prop_sens(&td, m_tau, s, &mut sens_tmp);
                     }
                     t += tau;
                     let f_old = td.topo.f.mul_vec(&zr);
@@ -795,7 +819,7 @@ impl Engine {
                         });
                     }
                     if let Some(s) = sens.as_mut() {
-                        Self::prop_sens(&td, m_dt, &sub, s, &mut sens_tmp);
+                        Self::prop_sens(&td, m_dt, s, &mut sens_tmp);
                     }
                     t = t_next;
                     z = z_end;
