@@ -210,14 +210,14 @@ fn err(reason: &str, hint: &str) -> SolveError {
     }
 }
 
-/// Solve the periodic steady state (with the constant-power load's outer
-/// loop) and return the engine positioned at the solution.
 /// The constant-power load's failure when the mean bus voltage is not positive.
 const COLLAPSE: (&str, &str) = (
     "the bus collapses under the constant-power load",
     "the supply cannot deliver this power through its impedance; reduce the power or the impedance",
 );
 
+/// Solve the periodic steady state (with the constant-power load's parameter,
+/// and its rebuilds) and return the engine positioned at the solution.
 fn steady(
     built: &mut Built,
     s: &Scenario,
@@ -305,8 +305,13 @@ fn steady(
         retired.1 += eng.n_topologies_built;
         eng = Engine::new(c, period, cfg.grid_points, it, vt);
     }
-    let st = st.ok_or_else(|| err("internal: no steady state", "report this case"))?;
-    Ok((eng, st, retired))
+    match st {
+        Some(st) if !st.restarted => Ok((eng, st, retired)),
+        _ => Err(err(
+            "the periodic steady state did not converge",
+            "the constant-power load's operating point kept moving; check the load power against the supply",
+        )),
+    }
 }
 
 /// Add the physics to a steady-state failure where it is known: a DC-link LC
@@ -774,18 +779,32 @@ fn power_up(
     let (mut v_dc, mut ia, mut ib, mut ic) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
     let mut peak: f64 = 0.0;
     let mut charge = None;
+    // Rows of the bus voltage and the three line currents, per topology.
+    let mut rows: solver::KeyMap<[Vec<f64>; 4]> = solver::KeyMap::default();
+    for key in run
+        .knots
+        .iter()
+        .map(|k| k.1)
+        .chain(run.pieces.iter().map(|p| p.key))
+    {
+        if !rows.contains_key(&key) {
+            let td = eng.topo_key(key)?;
+            let row = |i: usize| probe_row(&built.probes[i], &td.topo, &built.circuit);
+            rows.insert(
+                key,
+                [
+                    row(r.v_dc),
+                    row(r.line_i[0]),
+                    row(r.line_i[1]),
+                    row(r.line_i[2]),
+                ],
+            );
+        }
+    }
     for k in &run.knots {
-        let td = eng.topo_key(k.1)?;
-        let v = dot(
-            &probe_row(&built.probes[r.v_dc], &td.topo, &built.circuit),
-            &k.2,
-        );
-        let i = [0, 1, 2].map(|j| {
-            dot(
-                &probe_row(&built.probes[r.line_i[j]], &td.topo, &built.circuit),
-                &k.2,
-            )
-        });
+        let rw = &rows[&k.1];
+        let v = dot(&rw[0], &k.2);
+        let i = [1, 2, 3].map(|j| dot(&rw[j], &k.2));
         t_s.push(k.0);
         v_dc.push(v);
         ia.push(i[0]);
@@ -797,16 +816,13 @@ fn power_up(
         }
     }
     // Peaks between grid points: check the Gauss states too.
+    let mut gs = Vec::new();
     for p in &run.pieces {
-        let td = eng.topo_key(p.key)?;
-        let rows: Vec<Vec<f64>> = r
-            .line_i
-            .iter()
-            .map(|&j| probe_row(&built.probes[j], &td.topo, &built.circuit))
-            .collect();
-        for (_, _, z) in eng.gauss_states(p)? {
-            for row in &rows {
-                peak = peak.max(dot(row, &z).abs());
+        let rw = &rows[&p.key];
+        eng.gauss_states_into(p, &mut gs)?;
+        for (_, _, z) in &gs {
+            for row in &rw[1..] {
+                peak = peak.max(dot(row, z).abs());
             }
         }
     }

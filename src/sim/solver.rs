@@ -942,14 +942,8 @@ impl Engine {
         (self.tick_time(hi), z_hi)
     }
 
-    /// Evaluate the state at Gauss nodes of a recorded piece: (time, weight, state).
-    pub fn gauss_states(&mut self, p: &Piece) -> Result<Vec<(f64, f64, Vec<f64>)>, SolveError> {
-        let mut out = Vec::new();
-        self.gauss_states_into(p, &mut out)?;
-        Ok(out)
-    }
-
-    /// `gauss_states` into `out`, reusing its vectors.
+    /// The state at the Gauss nodes of a recorded piece, as (time, weight,
+    /// state), into `out` (its vectors are reused).
     pub fn gauss_states_into(
         &mut self,
         p: &Piece,
