@@ -406,6 +406,77 @@ fn peak_supply_v(s: &Scenario) -> f64 {
     k * 2f64.sqrt() * s.supply.v_ll_rms_v * pu * (1.0 + h)
 }
 
+/// Running sums of the period integrals (see `simulate_with`).
+struct Accum {
+    sum: Vec<f64>,
+    sum2: Vec<f64>,
+    mn: Vec<f64>,
+    mx: Vec<f64>,
+    /// Per harmonic signal and order: (sum v cos(h w t), sum v sin(h w t)) dt.
+    four: Vec<Vec<(f64, f64)>>,
+    p_phase: [f64; 3],
+    p_load: f64,
+    p_loss: f64,
+    h_max: usize,
+    w: f64,
+}
+
+impl Accum {
+    fn new(n_probe: usize, n_harm: usize, h_max: usize, w: f64) -> Accum {
+        Accum {
+            sum: vec![0.0; n_probe],
+            sum2: vec![0.0; n_probe],
+            mn: vec![f64::INFINITY; n_probe],
+            mx: vec![f64::NEG_INFINITY; n_probe],
+            four: vec![vec![(0.0, 0.0); h_max + 1]; n_harm],
+            p_phase: [0.0; 3],
+            p_load: 0.0,
+            p_loss: 0.0,
+            h_max,
+            w,
+        }
+    }
+
+    fn extremes(&mut self, vals: &[f64]) {
+        for ((lo, hi), v) in self.mn.iter_mut().zip(self.mx.iter_mut()).zip(vals) {
+            *lo = lo.min(*v);
+            *hi = hi.max(*v);
+        }
+    }
+
+    /// A quadrature node of weight `wt` (s): every probe's value and the
+    /// dissipation `q` there.
+    fn node(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex) {
+        for ((s, s2), v) in self.sum.iter_mut().zip(self.sum2.iter_mut()).zip(vals) {
+            *s += wt * v;
+            *s2 += wt * v * v;
+        }
+        for k in 0..3 {
+            self.p_phase[k] += wt * vals[r.phase_v[k]] * vals[r.line_i[k]];
+        }
+        self.p_load += wt * vals[r.v_dc] * vals[r.i_load];
+        self.p_loss += wt * q;
+    }
+
+    /// The Fourier sums of the harmonic signals at one node, directly.
+    fn direct(&mut self, t: f64, wt: f64, vals: &[f64], harm_signals: &[usize]) {
+        let (s1, c1) = (self.w * t).sin_cos();
+        let (mut ch, mut sh) = (1.0f64, 0.0f64);
+        for h in 1..=self.h_max {
+            // cos(h w t), sin(h w t) by recurrence.
+            let nc = ch * c1 - sh * s1;
+            let ns = sh * c1 + ch * s1;
+            ch = nc;
+            sh = ns;
+            for (j, &si) in harm_signals.iter().enumerate() {
+                let v = vals[si] * wt;
+                self.four[j][h].0 += v * ch;
+                self.four[j][h].1 += v * sh;
+            }
+        }
+    }
+}
+
 fn simulate_with(
     s: &Scenario,
     d: &Derived,
@@ -490,28 +561,24 @@ fn simulate_with(
     harm_signals.sort();
     harm_signals.dedup();
     let h_max = cfg.h_max as usize;
-    let mut sum = vec![0.0; n_probe];
-    let mut sum2 = vec![0.0; n_probe];
-    let mut mn = vec![f64::INFINITY; n_probe];
-    let mut mx = vec![f64::NEG_INFINITY; n_probe];
-    let mut four = vec![vec![(0.0f64, 0.0f64); h_max + 1]; harm_signals.len()];
-    let mut p_phase = [0.0; 3];
-    let mut p_load = 0.0;
     let w = 2.0 * PI / period;
-    // Harmonic integrals: pieces that fill a whole grid step sit on a uniform
-    // grid, so their Gauss-node values form NG uniform sequences whose sums
-    // against exp(-i h w t) are FFTs (mixed radix; see `fft`); pieces cut by a
-    // switching instant are summed directly.
+    let mut acc = Accum::new(n_probe, harm_signals.len(), h_max, w);
+    // Integrals over the period.  A whole grid step takes Simpson's rule: its
+    // start, middle and end (the middle state is one table level, E(h/2) z;
+    // the ends are the pieces' start values).  A piece cut by a switching
+    // instant takes four-point Gauss-Legendre.  Over whole steps the Fourier
+    // integrals are two uniform sequences, the knots (start and end weights
+    // summed) and the midpoints, summed by FFT (see `fft`); cut pieces are
+    // summed directly.
     let n_grid = cfg.grid_points;
     let use_fft = n_grid >= 2 * (h_max + 1);
     let h_step = period / n_grid as f64;
+    // seq[0][j][k]: weighted values of harmonic signal j at t_k; seq[1] at t_k + h/2.
     let mut seq: Vec<Vec<Vec<f64>>> = if use_fft {
-        vec![vec![vec![0.0; n_grid]; harm_signals.len()]; solver::NG]
+        vec![vec![vec![0.0; n_grid]; harm_signals.len()]; 2]
     } else {
         Vec::new()
     };
-    let mut vals = vec![0.0; n_probe];
-    let mut p_loss = 0.0;
     // Per topology: every probe as one matrix over z, and the dissipation as
     // a quadratic form in z (see `OutputForms`).
     let mut forms: solver::KeyMap<OutputForms> = solver::KeyMap::default();
@@ -526,93 +593,129 @@ fn simulate_with(
             forms.insert(key, OutputForms::new(&built, &td.topo));
         }
     }
-    let mut qz = vec![0.0; built.circuit.n_z()];
-    let mut gs = Vec::new();
+    let nz = built.circuit.n_z();
+    let mut qz = vec![0.0; nz];
+    let quad = |fo: &OutputForms, z: &[f64], qz: &mut Vec<f64>| -> f64 {
+        fo.q.mul_vec_into(z, qz);
+        dot(qz, z)
+    };
+    // Start values of every piece: probes and dissipation.
+    let n_pieces = run.pieces.len();
+    let mut start_vals = vec![0.0; n_pieces * n_probe];
+    let mut start_q = vec![0.0; n_pieces];
+    for (i, p) in run.pieces.iter().enumerate() {
+        let fo = &forms[&p.key];
+        fo.c.mul_vec_into(&p.z, &mut start_vals[i * n_probe..(i + 1) * n_probe]);
+        start_q[i] = quad(fo, &p.z, &mut qz);
+    }
     // Samples on the grid: every probe at every knot.  A knot is where the
     // piece starting there starts (same instant, topology and state), so its
-    // values are the piece's start values; others are evaluated on their own.
+    // values are that piece's start values; others are evaluated on their own.
     let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(run.knots.len()); n_probe];
-    let mut knot_i = 0;
-    let push_knot = |v: &[f64], samples: &mut Vec<Vec<f64>>| {
+    let mut knot_vals = vec![0.0; n_probe];
+    let mut piece_i = 0;
+    for k in &run.knots {
+        while piece_i < n_pieces && run.pieces[piece_i].t_s < k.0 {
+            piece_i += 1;
+        }
+        let v: &[f64] = match run.pieces.get(piece_i) {
+            Some(p) if p.t_s == k.0 && p.key == k.1 && p.z == k.2 => {
+                &start_vals[piece_i * n_probe..(piece_i + 1) * n_probe]
+            }
+            _ => {
+                forms[&k.1].c.mul_vec_into(&k.2, &mut knot_vals);
+                &knot_vals
+            }
+        };
         for (smp, x) in samples.iter_mut().zip(v) {
             smp.push(*x);
         }
-    };
-    let mut knot_vals = vec![0.0; n_probe];
-    for p in &run.pieces {
+    }
+    let mut gs = Vec::new();
+    let mut z_mid = vec![0.0; nz];
+    let mut z_end = vec![0.0; nz];
+    let mut v_mid = vec![0.0; n_probe];
+    let mut v_end = vec![0.0; n_probe];
+    for (i, p) in run.pieces.iter().enumerate() {
         let fo = &forms[&p.key];
-        // Ends of the piece count for min and max.
-        eng.gauss_states_into(p, &mut gs)?;
-        fo.c.mul_vec_into(&p.z, &mut vals);
-        for i in 0..n_probe {
-            mn[i] = mn[i].min(vals[i]);
-            mx[i] = mx[i].max(vals[i]);
-        }
-        while let Some(k) = run.knots.get(knot_i) {
-            if k.0 > p.t_s {
-                break;
-            }
-            if k.0 == p.t_s && k.1 == p.key && k.2 == p.z {
-                push_knot(&vals, &mut samples);
-            } else {
-                forms[&k.1].c.mul_vec_into(&k.2, &mut knot_vals);
-                push_knot(&knot_vals, &mut samples);
-            }
-            knot_i += 1;
-        }
-        let full_k = if use_fft && (p.dt_s - h_step).abs() < 1e-9 * h_step {
-            let k = (p.t_s / h_step).round() as usize;
-            (k < n_grid && (p.t_s - k as f64 * h_step).abs() < 1e-9 * h_step).then_some(k)
+        let v_start = &start_vals[i * n_probe..(i + 1) * n_probe];
+        // The start counts for min and max whatever the piece.
+        acc.extremes(v_start);
+        // Simpson's rule needs the state smooth on the closed step, start
+        // included: after a switching at the knot itself a blocking device's
+        // leakage leaves a transient far shorter than the step (the stiff
+        // mode, see `dyadic_table`), which the start node would weigh by
+        // h / 6.  Such a step, like a piece cut by a switching instant, takes
+        // the four-point Gauss rule, whose first node is past it.
+        let whole = (p.dt_s - h_step).abs() < 1e-9 * h_step;
+        let prev = if i == 0 {
+            run.pieces.last()
         } else {
-            None
+            run.pieces.get(i - 1)
         };
-        for (gj, (t, wt, z)) in gs.iter().enumerate() {
-            let (t, wt) = (*t, *wt);
-            fo.q.mul_vec_into(z, &mut qz);
-            p_loss += wt * dot(&qz, z);
-            fo.c.mul_vec_into(z, &mut vals);
-            for i in 0..n_probe {
-                let v = vals[i];
-                sum[i] += wt * v;
-                sum2[i] += wt * v * v;
-                mn[i] = mn[i].min(v);
-                mx[i] = mx[i].max(v);
+        let smooth_start = prev.is_some_and(|q| q.key == p.key && q.dt_s > 0.0);
+        if !whole || !smooth_start {
+            eng.gauss_states_into(p, &mut gs)?;
+            for (t, wt, z) in &gs {
+                fo.c.mul_vec_into(z, &mut v_mid);
+                let q = quad(fo, z, &mut qz);
+                acc.node(*wt, &v_mid, q, &r);
+                acc.direct(*t, *wt, &v_mid, &harm_signals);
             }
-            for k in 0..3 {
-                p_phase[k] += wt * vals[r.phase_v[k]] * vals[r.line_i[k]];
+            continue;
+        }
+        let td = eng.topo_key(p.key)?;
+        td.table[1].mul_vec_into(&p.z, &mut z_mid);
+        fo.c.mul_vec_into(&z_mid, &mut v_mid);
+        let q_mid = quad(fo, &z_mid, &mut qz);
+        // The end: the next piece's start when it starts here in the same
+        // topology, else this topology's values at the end state.
+        let t_end = p.t_s + p.dt_s;
+        let next = run.pieces.get(i + 1);
+        let q_end = match next {
+            Some(nx) if nx.key == p.key && (nx.t_s - t_end).abs() < 1e-9 * h_step => {
+                v_end.copy_from_slice(&start_vals[(i + 1) * n_probe..(i + 2) * n_probe]);
+                start_q[i + 1]
             }
-            p_load += wt * vals[r.v_dc] * vals[r.i_load];
-            if let Some(k) = full_k {
-                for (j, &si) in harm_signals.iter().enumerate() {
-                    seq[gj][j][k] = vals[si];
+            _ => {
+                match next {
+                    Some(nx) if (nx.t_s - t_end).abs() < 1e-9 * h_step => {
+                        z_end.copy_from_slice(&nx.z)
+                    }
+                    _ => td.step.mul_vec_into(&p.z, &mut z_end),
                 }
-                continue;
+                fo.c.mul_vec_into(&z_end, &mut v_end);
+                quad(fo, &z_end, &mut qz)
             }
-            let (s1, c1) = (w * t).sin_cos();
-            let (mut ch, mut sh) = (1.0f64, 0.0f64);
-            for h in 1..=h_max {
-                // cos(h w t), sin(h w t) by recurrence.
-                let nc = ch * c1 - sh * s1;
-                let ns = sh * c1 + ch * s1;
-                ch = nc;
-                sh = ns;
-                for (j, &si) in harm_signals.iter().enumerate() {
-                    let v = vals[si] * wt;
-                    four[j][h].0 += v * ch;
-                    four[j][h].1 += v * sh;
-                }
+        };
+        let (w_end, w_mid) = (h_step / 6.0, 4.0 * h_step / 6.0);
+        acc.node(w_end, v_start, start_q[i], &r);
+        acc.node(w_mid, &v_mid, q_mid, &r);
+        acc.node(w_end, &v_end, q_end, &r);
+        acc.extremes(&v_mid);
+        acc.extremes(&v_end);
+        let k = (p.t_s / h_step).round() as usize;
+        if use_fft && k < n_grid && (p.t_s - k as f64 * h_step).abs() < 1e-9 * h_step {
+            let k1 = (k + 1) % n_grid;
+            for (j, &si) in harm_signals.iter().enumerate() {
+                seq[0][j][k] += w_end * v_start[si];
+                seq[0][j][k1] += w_end * v_end[si];
+                seq[1][j][k] = w_mid * v_mid[si];
             }
+        } else {
+            acc.direct(p.t_s, w_end, v_start, &harm_signals);
+            acc.direct(p.t_s + h_step / 2.0, w_mid, &v_mid, &harm_signals);
+            acc.direct(t_end, w_end, &v_end, &harm_signals);
         }
     }
     if use_fft {
         let mut plan = fft::Plan::new(n_grid);
-        for gj in 0..solver::NG {
-            let wt = solver::GL_W[gj] * h_step / 2.0;
-            let c_j = h_step * (1.0 + solver::GL_X[gj]) / 2.0;
+        // Sequence 0 sits on the knots, sequence 1 half a step later.
+        for (sj, offset) in [(0usize, 0.0f64), (1, h_step / 2.0)] {
             let mut j = 0;
             while j < harm_signals.len() {
                 let j2 = (j + 1).min(harm_signals.len() - 1);
-                let (xa, xb) = plan.two_real(&seq[gj][j], &seq[gj][j2], h_max);
+                let (xa, xb) = plan.two_real(&seq[sj][j], &seq[sj][j2], h_max);
                 let pairs: Vec<(usize, &Vec<(f64, f64)>)> = if j2 == j {
                     vec![(j, &xa)]
                 } else {
@@ -620,24 +723,30 @@ fn simulate_with(
                 };
                 for (jj, x) in pairs {
                     for h in 1..=h_max {
-                        // sum v e^{+i h w t} = e^{i h w c_j} conj(X[h]).
-                        let (sn, cs) = (h as f64 * w * c_j).sin_cos();
+                        // sum v e^{+i h w t} = e^{i h w offset} conj(X[h]).
+                        let (sn, cs) = (h as f64 * w * offset).sin_cos();
                         let (xr, xi) = (x[h].0, -x[h].1);
-                        four[jj][h].0 += wt * (cs * xr - sn * xi);
-                        four[jj][h].1 += wt * (sn * xr + cs * xi);
+                        acc.four[jj][h].0 += cs * xr - sn * xi;
+                        acc.four[jj][h].1 += sn * xr + cs * xi;
                     }
                 }
                 j += 2;
             }
         }
     }
+    let Accum {
+        sum,
+        sum2,
+        mn,
+        mx,
+        four,
+        p_phase,
+        p_load,
+        p_loss,
+        ..
+    } = acc;
     let grid_t: Vec<f64> = run.knots.iter().map(|k| k.0).collect();
     let mut signals = Vec::with_capacity(n_probe);
-    // The knots after the last piece's start (the end of the period).
-    for k in &run.knots[knot_i.min(run.knots.len())..] {
-        forms[&k.1].c.mul_vec_into(&k.2, &mut knot_vals);
-        push_knot(&knot_vals, &mut samples);
-    }
     for ((i, pr), samples) in built.probes.iter().enumerate().zip(samples) {
         let mean = sum[i] / period;
         let rms = (sum2[i] / period).max(0.0).sqrt();
@@ -815,10 +924,20 @@ fn power_up(
             charge = Some(k.0);
         }
     }
-    // Peaks between grid points: check the Gauss states too.
+    // Peaks between grid points: the middle of each whole step, and the
+    // Gauss nodes of pieces cut by a switching instant.
     let mut gs = Vec::new();
+    let h_step = eng.h_s;
     for p in &run.pieces {
         let rw = &rows[&p.key];
+        if (p.dt_s - h_step).abs() < 1e-9 * h_step {
+            let td = eng.topo_key(p.key)?;
+            let z_mid = td.table[1].mul_vec(&p.z);
+            for row in &rw[1..] {
+                peak = peak.max(dot(row, &z_mid).abs());
+            }
+            continue;
+        }
         eng.gauss_states_into(p, &mut gs)?;
         for (_, _, z) in &gs {
             for row in &rw[1..] {

@@ -19,7 +19,7 @@
 //! converges in a few periods whatever the circuit's time constants.
 
 use super::circuit::{Circuit, Element, SwitchKind, Topology};
-use super::linalg::{expm, Lu, Mat};
+use super::linalg::{Lu, Mat};
 use std::collections::HashMap;
 use std::rc::Rc;
 
@@ -47,20 +47,11 @@ impl std::hash::Hasher for KeyHasher {
 /// A map keyed by topology key.
 pub type KeyMap<V> = HashMap<u64, V, std::hash::BuildHasherDefault<KeyHasher>>;
 
-/// Gauss-Legendre nodes and weights on [-1, 1] (Abramowitz and Stegun,
-/// Table 25.4): 2 points (x = +-1/sqrt(3), w = 1) on whole grid steps, 4 on
-/// pieces cut by a switching instant.  Within a piece the state is a smooth
-/// sum of the circuit's modes (kinks sit at piece ends, the switching
-/// instants), so the two-point rule's error over a step of length h is about
-/// `(omega h)^4 / 4320` of a component at angular frequency omega (its
-/// remainder `h^5 f''''(xi) / 4320`, Abramowitz and Stegun 25.4.30): below
-/// 1e-4 of the 100th harmonic on a 1024-point grid.  Over whole steps that
-/// error is the same for every step and cancels round the period for any
-/// harmonic the grid resolves; on the few cut pieces it would not, so they
-/// take the four-point rule (error about `(omega h)^8 / 3.5e9`).
-pub const NG: usize = 2;
-pub const GL_X: [f64; NG] = [-0.577_350_269_189_625_8, 0.577_350_269_189_625_8];
-pub const GL_W: [f64; NG] = [1.0, 1.0];
+/// Gauss-Legendre nodes and weights on [-1, 1], 4 points (Abramowitz and
+/// Stegun, Table 25.4), for pieces cut by a switching instant: within a piece
+/// the state is a smooth sum of the circuit's modes (kinks sit at the piece
+/// ends), and the rule's error is about `(omega tau)^8 / 3.5e9` of a component
+/// at angular frequency omega over a piece of length tau.
 pub const GL4_X: [f64; 4] = [
     -0.861_136_311_594_052_6,
     -0.339_981_043_584_856_3,
@@ -187,9 +178,6 @@ pub struct TopoData {
     pub topo: Topology,
     /// `expm(F h)` for the grid step.
     pub step: Mat,
-    /// `expm(F h (1 + x_j) / 2)` at the Gauss nodes of a full step.
-    /// (Built on first use: only the recording period needs them.)
-    pub gl: std::cell::OnceCell<Vec<Mat>>,
     /// `table[i] = expm(F h / 2^i)`, i = 0..=TABLE_LEVELS.  Any time in a step,
     /// rounded to the finest level, is a product of these (they commute), so
     /// the state anywhere costs at most one matrix-vector product per level,
@@ -348,7 +336,6 @@ impl Engine {
         let bad = || fail("state matrix is not finite", "check the element values");
         let table = dyadic_table(&topo.f, self.h_s).ok_or_else(bad)?;
         let step = table[0].clone();
-        let gl = std::cell::OnceCell::new();
         let cond = (0..on.len())
             .map(|k| self.cond_row(&topo, k, on[k]))
             .collect();
@@ -378,7 +365,6 @@ impl Engine {
         let d = Rc::new(TopoData {
             topo,
             step,
-            gl,
             table,
             cond,
             up,
@@ -420,13 +406,19 @@ impl Engine {
     /// `expm(F tau) z` via the table (tau rounded to the finest level, at most
     /// one coarse stride).
     pub fn prop_vec(td: &TopoData, m: u64, z: &[f64]) -> Vec<f64> {
-        let mut v = z.to_vec();
-        let mut tmp = vec![0.0; v.len()];
-        for b in set_bits_down(m) {
-            Self::level(td, b).mul_vec_into(&v, &mut tmp);
-            std::mem::swap(&mut v, &mut tmp);
-        }
+        let mut v = vec![0.0; z.len()];
+        let mut tmp = vec![0.0; z.len()];
+        Self::prop_vec_into(td, m, z, &mut v, &mut tmp);
         v
+    }
+
+    /// `prop_vec` into `out`, with `tmp` as scratch (both of `z`'s length).
+    pub fn prop_vec_into(td: &TopoData, m: u64, z: &[f64], out: &mut Vec<f64>, tmp: &mut Vec<f64>) {
+        out.copy_from_slice(z);
+        for b in set_bits_down(m) {
+            Self::level(td, b).mul_vec_into(out, tmp);
+            std::mem::swap(out, tmp);
+        }
     }
 
     /// The sensitivity `S <- expm(F tau) S` via the table, where `S` holds
@@ -609,6 +601,8 @@ impl Engine {
             None
         };
         let mut sens_tmp = Mat::zeros(na, na);
+        let mut z_end = vec![0.0; z.len()];
+        let mut z_tmp = vec![0.0; z.len()];
         let mut t = spec.t0_s;
         let h = if spec.coarse {
             self.h_s * (1u64 << COARSE_LEVELS) as f64
@@ -670,9 +664,12 @@ impl Engine {
             } else {
                 t_next = t + dt;
             }
-            let z_end = Self::prop_vec(&td, m_dt, &z);
+            Self::prop_vec_into(&td, m_dt, &z, &mut z_end, &mut z_tmp);
             // Find the earliest crossing among the switches.
             let mut first: Option<(f64, usize, Vec<f64>)> = None;
+            // Whether any switch ends the step on the wrong side (if none, the
+            // settling at the stop has nothing to do).
+            let mut any_violation = false;
             for k in 0..on.len() {
                 if !self.may_switch(k, on[k], t_next) && !self.may_switch(k, on[k], t) {
                     continue;
@@ -681,8 +678,8 @@ impl Engine {
                 if v_end <= 1.0 {
                     continue;
                 }
-                let c = td.cond[k].clone();
-                let (tau, zr) = self.locate(&td, &c, &z, m_dt, on[k]);
+                any_violation = true;
+                let (tau, zr) = self.locate(&td, &td.cond[k], &z, m_dt, on[k]);
                 // A device that flipped at this very instant and sits at its
                 // threshold (leakage-level current) is not flipped back at the
                 // same instant; the check at the next stop settles it.
@@ -822,7 +819,7 @@ impl Engine {
                         Self::prop_sens(&td, m_dt, s, &mut sens_tmp);
                     }
                     t = t_next;
-                    z = z_end;
+                    std::mem::swap(&mut z, &mut z_end);
                     visited_now.clear();
                     // Keep the oscillator exact (no drift over many steps).
                     self.circuit.osc_at(&mut z, t);
@@ -833,8 +830,13 @@ impl Engine {
                         self.close_contactors(&mut on, t, &mut events);
                         contactor_done = true;
                     }
-                    // Gate openings and settling at stops.
-                    td = self.settle(&mut on, &z, t, &mut events, None)?;
+                    // Gate openings and settling at stops.  With no switch on
+                    // the wrong side at the stop (every condition that may
+                    // change here was just evaluated there), it has nothing
+                    // to do.
+                    if any_violation || contactor_now {
+                        td = self.settle(&mut on, &z, t, &mut events, None)?;
+                    }
                     visited_now.push(Self::key(&on));
                     if spec.record && at_grid {
                         knots.push((t, Self::key(&on), z.clone()));
@@ -942,53 +944,22 @@ impl Engine {
         (self.tick_time(hi), z_hi)
     }
 
-    /// The state at the Gauss nodes of a recorded piece, as (time, weight,
-    /// state), into `out` (its vectors are reused).
+    /// The state at the four Gauss-Legendre nodes of a recorded piece, as
+    /// (time, weight, state), into `out` (its vectors are reused).  Used for
+    /// pieces cut by a switching instant (whole grid steps take Simpson's
+    /// rule, whose middle node is one table level).
     pub fn gauss_states_into(
         &mut self,
         p: &Piece,
         out: &mut Vec<(f64, f64, Vec<f64>)>,
     ) -> Result<(), SolveError> {
         let td = self.topo_key(p.key)?;
-        // Whole grid steps use cached Gauss-node exponentials; cut pieces go
-        // through the table.
-        let cached = if (p.dt_s - self.h_s).abs() < 1e-9 * self.h_s {
-            Some((&td.gl, self.h_s))
-        } else {
-            None
-        };
-        let n_nodes = if cached.is_some() { NG } else { 4 };
-        out.resize_with(n_nodes, || (0.0, 0.0, vec![0.0; p.z.len()]));
-        match cached {
-            Some((cell, h)) => {
-                if cell.get().is_none() {
-                    let mut v = Vec::with_capacity(NG);
-                    for x in GL_X {
-                        v.push(expm(&td.topo.f.scale(h * (1.0 + x) / 2.0)).ok_or_else(|| {
-                            fail("state matrix is not finite", "check the element values")
-                        })?);
-                    }
-                    let _ = cell.set(v);
-                }
-                let gl = cell
-                    .get()
-                    .ok_or_else(|| fail("internal: Gauss matrices", "report this case"))?;
-                for (j, o) in out.iter_mut().enumerate() {
-                    let tau = p.dt_s * (1.0 + GL_X[j]) / 2.0;
-                    o.0 = p.t_s + tau;
-                    o.1 = GL_W[j] * p.dt_s / 2.0;
-                    o.2.resize(p.z.len(), 0.0);
-                    gl[j].mul_vec_into(&p.z, &mut o.2);
-                }
-            }
-            None => {
-                for (j, o) in out.iter_mut().enumerate() {
-                    let m = self.ticks(p.dt_s * (1.0 + GL4_X[j]) / 2.0);
-                    o.0 = p.t_s + self.tick_time(m);
-                    o.1 = GL4_W[j] * p.dt_s / 2.0;
-                    o.2 = Self::prop_vec(&td, m, &p.z);
-                }
-            }
+        out.resize_with(4, || (0.0, 0.0, Vec::new()));
+        for (j, o) in out.iter_mut().enumerate() {
+            let m = self.ticks(p.dt_s * (1.0 + GL4_X[j]) / 2.0);
+            o.0 = p.t_s + self.tick_time(m);
+            o.1 = GL4_W[j] * p.dt_s / 2.0;
+            o.2 = Self::prop_vec(&td, m, &p.z);
         }
         Ok(())
     }
@@ -1254,6 +1225,7 @@ pub fn solve_periodic_from(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::sim::linalg::expm;
 
     /// A state matrix shaped like a circuit's: a stiff leakage mode, a slow RC
     /// mode, an R-L mode coupled to an oscillator (cos, sin) pair and a
