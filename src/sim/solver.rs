@@ -621,15 +621,7 @@ impl Engine {
         let end_tol = 1e-12 * self.period_s;
         while t < spec.t1_s - end_tol {
             // Next stop: the next grid point, a gate opening, or the end.
-            // Coarse (Newton) runs stride freely from the last event: one
-            // partial step per event instead of two (the grid only matters
-            // for the recorded samples of the fine run).
-            let grid_next = if spec.coarse {
-                t + h
-            } else {
-                (grid_index + 1) as f64 * h
-            };
-            let mut t_next = grid_next.min(spec.t1_s);
+            let mut t_next = ((grid_index + 1) as f64 * h).min(spec.t1_s);
             let mut at_grid = true;
             let base = (t / self.period_s).floor() * self.period_s;
             for &g in &self.gate_times {
@@ -656,11 +648,9 @@ impl Engine {
                 m_dt = 1;
             }
             let dt = self.tick_time(m_dt);
-            if at_grid && !spec.coarse {
+            if at_grid {
                 // Land exactly on the grid point (no drift from tick rounding).
                 t_next = ((grid_index + 1) as f64 * h).min(spec.t1_s);
-            } else if at_grid && t_next >= spec.t1_s {
-                t_next = spec.t1_s;
             } else {
                 t_next = t + dt;
             }
@@ -993,6 +983,9 @@ pub struct SteadyState {
     /// With a `ParamRule`: stopped early because `rule.restart` asked for it
     /// (the state is near periodic, not converged).
     pub restarted: bool,
+    /// The converging period itself when it was marched on the fine grid and
+    /// recorded (see `solve_periodic_from`): the caller need not march it again.
+    pub recorded: Option<RunOut>,
 }
 
 /// A parameter (the `p` entry of `z`) that depends on the solution: the
@@ -1050,14 +1043,27 @@ pub fn solve_periodic(
 fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<f64, SolveError> {
     let mut acc = 0.0;
     let mut rows: KeyMap<Vec<f64>> = KeyMap::default();
+    let n = run.pieces.first().map_or(0, |p| p.z.len());
+    let (mut z_mid, mut tmp, mut z_end) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
+    let mut last: Option<(u64, Rc<TopoData>)> = None;
     for (i, p) in run.pieces.iter().enumerate() {
-        let td = eng.topo_key(p.key)?;
+        let td = match &last {
+            Some((k, td)) if *k == p.key => td.clone(),
+            _ => {
+                let td = eng.topo_key(p.key)?;
+                last = Some((p.key, td.clone()));
+                td
+            }
+        };
         let row = rows.entry(p.key).or_insert_with(|| (rule.row)(&td.topo));
         let m = eng.ticks(p.dt_s);
-        let z_mid = Engine::prop_vec(&td, m / 2, &p.z);
+        Engine::prop_vec_into(&td, m / 2, &p.z, &mut z_mid, &mut tmp);
         let v_end = match run.pieces.get(i + 1) {
             Some(next) => dot(row, &next.z),
-            None => dot(row, &Engine::prop_vec(&td, m, &p.z)),
+            None => {
+                Engine::prop_vec_into(&td, m, &p.z, &mut z_end, &mut tmp);
+                dot(row, &z_end)
+            }
         };
         acc += p.dt_s / 6.0 * (dot(row, &p.z) + 4.0 * dot(row, &z_mid) + v_end);
     }
@@ -1092,6 +1098,19 @@ pub fn solve_periodic_from(
         contactor_close: None,
         coarse: eng.coarse_newton,
     };
+    // Once the residual is small, the next Newton period is likely the last:
+    // it is marched on the fine grid and recorded, so that when it converges
+    // it is also the recording period.
+    // (Without the sensitivity, which on the fine grid costs more than a
+    // whole coarse period; should that period not converge, the next step
+    // marches it again coarse with the sensitivity.)
+    let final_spec = RunSpec {
+        coarse: false,
+        record: true,
+        sensitivity: false,
+        ..with_sens
+    };
+    let mut run_recorded = false;
     let norm = |r: &[f64]| -> f64 {
         r.iter()
             .zip(x_scale)
@@ -1136,6 +1155,11 @@ pub fn solve_periodic_from(
                 residual: rn,
                 mean,
                 restarted: restart,
+                recorded: if run_recorded && !restart {
+                    Some(run)
+                } else {
+                    None
+                },
             });
         }
         if it == max_iter {
@@ -1152,6 +1176,13 @@ pub fn solve_periodic_from(
         }
         if rule.is_some() && q != 0.0 {
             prev_pq = Some((p_now, q));
+        }
+        if run.monodromy.is_none() {
+            // A recorded fine period that did not converge carries no
+            // sensitivity: march the same period coarse with it.
+            run = eng.run(&x0, &on0, &with_sens)?;
+            res = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
+            rn = norm(&res);
         }
         let m = run.monodromy.take().unwrap_or_else(|| Mat::identity(nx));
         let dxdp = run.dx_dparam.take().unwrap_or_else(|| vec![0.0; nx]);
@@ -1176,21 +1207,25 @@ pub fn solve_periodic_from(
         for _ in 0..8 {
             let xt: Vec<f64> = x0.iter().zip(&delta).map(|(x, d)| x + lambda * d).collect();
             let on_start = run.on_end.clone();
-            if let Ok(rt) = eng.run(&xt, &on_start, &with_sens) {
+            let likely_last =
+                lambda == 1.0 && rn < 1e-6 && (rule.is_none() || dp.abs() < 1e-4 * p_now.abs());
+            let spec = if likely_last { &final_spec } else { &with_sens };
+            if let Ok(rt) = eng.run(&xt, &on_start, spec) {
                 let rest: Vec<f64> = rt.x_end.iter().zip(&xt).map(|(a, b)| a - b).collect();
                 let rnt = norm(&rest);
                 if rnt < rn_ref || lambda < 0.02 {
-                    accepted = Some((xt, on_start, rt, rest, rnt));
+                    accepted = Some((xt, on_start, rt, rest, rnt, likely_last));
                     break;
                 }
             }
             lambda *= 0.5;
         }
         match accepted {
-            Some((xt, ot, rt, rest, rnt)) => {
+            Some((xt, ot, rt, rest, rnt, recorded)) => {
                 x0 = xt;
                 on0 = ot;
                 run = rt;
+                run_recorded = recorded;
                 res = rest;
                 rn = rnt;
             }
@@ -1199,6 +1234,7 @@ pub fn solve_periodic_from(
                 x0 = run.x_end.clone();
                 on0 = run.on_end.clone();
                 run = eng.run(&x0, &on0, &with_sens)?;
+                run_recorded = false;
                 res = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
                 rn = norm(&res);
             }
@@ -1215,6 +1251,7 @@ pub fn solve_periodic_from(
             residual: rn,
             mean,
             restarted: false,
+            recorded: None,
         });
     }
     Err(fail(
