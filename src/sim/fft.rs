@@ -1,5 +1,6 @@
 //! Fast Fourier transform of any length whose prime factors are small
-//! (mixed-radix decimation in time, Cooley and Tukey 1965; e.g. Press et al.,
+//! (mixed-radix decimation in time, iterative: a digit-reversal permutation
+//! then one pass of butterflies per radix; Cooley and Tukey 1965; e.g. Press et al.,
 //! *Numerical Recipes*, 3rd ed., sec. 12.2 for radix 2 and the general
 //! factorisation), used for the harmonic integrals over the uniform part of
 //! the grid.  A length with a prime factor above `MAX_RADIX` is summed
@@ -47,100 +48,105 @@ fn cmul(a: C, b: C) -> C {
     (a.0 * b.0 - a.1 * b.1, a.0 * b.1 + a.1 * b.0)
 }
 
-/// `out` = DFT of length `n` of `inp[0], inp[stride], ...`; `tw[e]` =
-/// `exp(-i 2 pi e / big_n)` with `n` dividing `big_n`.
-fn rec(inp: &[C], stride: usize, out: &mut [C], n: usize, tw: &[C], big_n: usize) {
-    let p = smallest_factor(n);
-    let m = n / p;
-    if m == 1 {
-        // A short prime (or 4) length: the defining sum.
-        let s = big_n / n;
-        for (q, o) in out.iter_mut().enumerate().take(n) {
-            let mut acc = inp[0];
-            let mut e = 0;
-            for j in 1..n {
-                e += q;
-                if e >= n {
-                    e -= n;
-                }
-                let t = cmul(inp[j * stride], tw[e * s]);
-                acc.0 += t.0;
-                acc.1 += t.1;
+/// The factors of `n` in the order the transform splits it (`smallest_factor`
+/// at each level: 4 while it divides, then the primes).
+fn factors(mut n: usize) -> Vec<usize> {
+    let mut f = Vec::new();
+    while n > 1 {
+        let p = smallest_factor(n);
+        f.push(p);
+        n /= p;
+    }
+    f
+}
+
+/// Where input `t` sits before the butterfly passes: the splitting of
+/// decimation in time (input `j + p t'` of a length `p m` transform feeds
+/// the sub-transform `j`, stored at `j m`), digit by digit.
+fn digit_reversal(n: usize, f: &[usize]) -> Vec<usize> {
+    (0..n)
+        .map(|t| {
+            let (mut rest, mut len, mut pos) = (t, n, 0);
+            for &p in f {
+                len /= p;
+                pos += (rest % p) * len;
+                rest /= p;
             }
-            *o = acc;
-        }
-        return;
-    }
-    for j in 0..p {
-        rec(
-            &inp[j * stride..],
-            stride * p,
-            &mut out[j * m..(j + 1) * m],
-            m,
-            tw,
-            big_n,
-        );
-    }
-    // X[k + m q] = sum_j W_n^{j k} Y_j[k] W_p^{j q}  (j k s < n s = big_n).
-    let s = big_n / n; // W_n^e = tw[e s]
+            pos
+        })
+        .collect()
+}
+
+/// One pass of butterflies of radix `p` over blocks of `p m` in place:
+/// `X[k + m q] = sum_j W_(p m)^(j k) Y_j[k] W_p^(j q)`, with `Y_j` the
+/// block's `j`-th run of `m` (decimation in time, Cooley and Tukey 1965).
+/// `tw[e] = W_N^e` for the whole length `N`.
+fn pass(x: &mut [C], p: usize, m: usize, tw: &[C]) {
+    let big_n = x.len();
+    let s = big_n / (p * m); // W_(p m)^e = tw[e s]
     let sp = big_n / p; // W_p^e = tw[e sp]
-    let mut y = [(0.0, 0.0); MAX_RADIX];
-    let mut x = [(0.0, 0.0); MAX_RADIX];
-    // W_p^e, e < p.
     let mut wp = [(0.0, 0.0); MAX_RADIX];
     for (e, w) in wp.iter_mut().enumerate().take(p) {
         *w = tw[e * sp];
     }
     const S3: f64 = 0.866_025_403_784_438_6; // sin(60 deg)
-    for k in 0..m {
-        y[0] = out[k];
-        for j in 1..p {
-            y[j] = cmul(out[j * m + k], tw[j * k * s]);
-        }
-        match p {
-            2 => {
-                x[0] = (y[0].0 + y[1].0, y[0].1 + y[1].1);
-                x[1] = (y[0].0 - y[1].0, y[0].1 - y[1].1);
+    let mut y = [(0.0, 0.0); MAX_RADIX];
+    let mut out = [(0.0, 0.0); MAX_RADIX];
+    for block in x.chunks_exact_mut(p * m) {
+        for k in 0..m {
+            y[0] = block[k];
+            for j in 1..p {
+                y[j] = if k == 0 {
+                    block[j * m]
+                } else {
+                    cmul(block[j * m + k], tw[j * k * s])
+                };
             }
-            3 => {
-                let (a, b, c) = (y[0], y[1], y[2]);
-                let (sr, si) = (b.0 + c.0, b.1 + c.1);
-                let (dr, di) = (b.0 - c.0, b.1 - c.1);
-                let (mr, mi) = (a.0 - 0.5 * sr, a.1 - 0.5 * si);
-                // W_3 = -1/2 - i sin60: X1 = a - s/2 - i S3 d, X2 = a - s/2 + i S3 d.
-                x[0] = (a.0 + sr, a.1 + si);
-                x[1] = (mr + S3 * di, mi - S3 * dr);
-                x[2] = (mr - S3 * di, mi + S3 * dr);
-            }
-            4 => {
-                let (a, b, c, d) = (y[0], y[1], y[2], y[3]);
-                let (t0, t1) = ((a.0 + c.0, a.1 + c.1), (a.0 - c.0, a.1 - c.1));
-                let (t2, t3) = ((b.0 + d.0, b.1 + d.1), (b.0 - d.0, b.1 - d.1));
-                // W_4 = -i: (b - d)(-i) = (t3.1, -t3.0).
-                x[0] = (t0.0 + t2.0, t0.1 + t2.1);
-                x[1] = (t1.0 + t3.1, t1.1 - t3.0);
-                x[2] = (t0.0 - t2.0, t0.1 - t2.1);
-                x[3] = (t1.0 - t3.1, t1.1 + t3.0);
-            }
-            _ => {
-                for (q, xq) in x.iter_mut().enumerate().take(p) {
-                    let mut acc = y[0];
-                    let mut e = 0;
-                    for yj in y.iter().take(p).skip(1) {
-                        e += q;
-                        if e >= p {
-                            e -= p;
+            match p {
+                2 => {
+                    out[0] = (y[0].0 + y[1].0, y[0].1 + y[1].1);
+                    out[1] = (y[0].0 - y[1].0, y[0].1 - y[1].1);
+                }
+                3 => {
+                    let (a, b, c) = (y[0], y[1], y[2]);
+                    let (sr, si) = (b.0 + c.0, b.1 + c.1);
+                    let (dr, di) = (b.0 - c.0, b.1 - c.1);
+                    let (mr, mi) = (a.0 - 0.5 * sr, a.1 - 0.5 * si);
+                    // W_3 = -1/2 - i sin60: X1 = a - s/2 - i S3 d, X2 = a - s/2 + i S3 d.
+                    out[0] = (a.0 + sr, a.1 + si);
+                    out[1] = (mr + S3 * di, mi - S3 * dr);
+                    out[2] = (mr - S3 * di, mi + S3 * dr);
+                }
+                4 => {
+                    let (a, b, c, d) = (y[0], y[1], y[2], y[3]);
+                    let (t0, t1) = ((a.0 + c.0, a.1 + c.1), (a.0 - c.0, a.1 - c.1));
+                    let (t2, t3) = ((b.0 + d.0, b.1 + d.1), (b.0 - d.0, b.1 - d.1));
+                    // W_4 = -i: (b - d)(-i) = (t3.1, -t3.0).
+                    out[0] = (t0.0 + t2.0, t0.1 + t2.1);
+                    out[1] = (t1.0 + t3.1, t1.1 - t3.0);
+                    out[2] = (t0.0 - t2.0, t0.1 - t2.1);
+                    out[3] = (t1.0 - t3.1, t1.1 + t3.0);
+                }
+                _ => {
+                    for (q, xq) in out.iter_mut().enumerate().take(p) {
+                        let mut acc = y[0];
+                        let mut e = 0;
+                        for yj in y.iter().take(p).skip(1) {
+                            e += q;
+                            if e >= p {
+                                e -= p;
+                            }
+                            let t = cmul(*yj, wp[e]);
+                            acc.0 += t.0;
+                            acc.1 += t.1;
                         }
-                        let t = cmul(*yj, wp[e]);
-                        acc.0 += t.0;
-                        acc.1 += t.1;
+                        *xq = acc;
                     }
-                    *xq = acc;
                 }
             }
-        }
-        for (q, xq) in x.iter().enumerate().take(p) {
-            out[k + m * q] = *xq;
+            for (q, xq) in out.iter().enumerate().take(p) {
+                block[k + m * q] = *xq;
+            }
         }
     }
 }
@@ -155,6 +161,10 @@ pub struct Plan {
     /// Bit-reversal permutation, for a power-of-two length (the iterative
     /// radix-2 path; the default grid is 1024).
     rev: Vec<usize>,
+    /// Mixed radix (any other smooth length): the radices in splitting order
+    /// and the input permutation.
+    factors: Vec<usize>,
+    perm: Vec<usize>,
 }
 
 impl Plan {
@@ -178,6 +188,13 @@ impl Plan {
         } else {
             Vec::new()
         };
+        let (factors, perm) = if smooth && rev.is_empty() && n > 1 {
+            let f = factors(n);
+            let perm = digit_reversal(n, &f);
+            (f, perm)
+        } else {
+            (Vec::new(), Vec::new())
+        };
         Plan {
             n,
             smooth,
@@ -185,6 +202,8 @@ impl Plan {
             scratch: vec![(0.0, 0.0); n],
             z: vec![(0.0, 0.0); n],
             rev,
+            factors,
+            perm,
         }
     }
 
@@ -234,8 +253,16 @@ impl Plan {
             self.fft_pow2(x);
             return;
         }
-        self.scratch.copy_from_slice(x);
-        rec(&self.scratch, 1, x, n, &self.tw, n);
+        for (t, &pos) in self.perm.iter().enumerate() {
+            self.scratch[pos] = x[t];
+        }
+        // Passes from the innermost split outwards: sub-transform length m.
+        let mut m = 1;
+        for &p in self.factors.iter().rev() {
+            pass(&mut self.scratch, p, m, &self.tw);
+            m *= p;
+        }
+        x.copy_from_slice(&self.scratch);
     }
 
     /// DFTs of two real sequences of the plan's length, bins 0..=h_max (at
