@@ -853,8 +853,22 @@ fn power_up(
     v_mean: f64,
     warnings: &mut Vec<String>,
 ) -> Result<Transient, SolveError> {
+    // A constant-power load is its equivalent resistance V0^2 / P at the
+    // steady mean bus voltage here: a drive's inverter draws its power once
+    // the bus is up, and the steady state's linearisation about V0 is a
+    // negative resistance that, on a bus still charging through a precharge
+    // resistor, made the transient run away (1e22 A).
+    let mut circuit = built.circuit.clone();
+    if let (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
+        if v_mean > 0.0 {
+            if let Element::Conductance { g_s, .. } = &mut circuit.elements[eg] {
+                *g_s = p_w / (v_mean * v_mean);
+            }
+            circuit.param = 0.0;
+        }
+    }
     let mut eng = Engine::new(
-        built.circuit.clone(),
+        circuit,
         period,
         cfg.grid_points.min(720),
         TOL_REL * built.i_base_a,
@@ -881,86 +895,110 @@ fn power_up(
     } else {
         None
     };
-    let t1 = period * cfg.transient_cycles as f64;
-    let run = eng.run(
-        &vec![0.0; nx],
-        &on0,
-        &RunSpec {
-            t0_s: 0.0,
-            t1_s: t1,
-            record: true,
-            sensitivity: false,
-            contactor_close: rule,
-            coarse: false,
-        },
-    )?;
+    // Marched in chunks of whole cycles so that only one chunk's steps are
+    // held at a time (the waveforms keep four numbers per grid point; a
+    // 2000-cycle power-up held every step's state at once before).
+    const CHUNK_CYCLES: usize = 25;
+    let n_cycles = cfg.transient_cycles as usize;
     let r = &built.roles;
     let mut t_s = Vec::new();
     let (mut v_dc, mut ia, mut ib, mut ic) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
     let mut peak: f64 = 0.0;
     let mut charge = None;
+    let mut bypass_at_s = None;
     // Rows of the bus voltage and the three line currents, per topology.
     let mut rows: solver::KeyMap<[Vec<f64>; 4]> = solver::KeyMap::default();
-    for key in run
-        .knots
-        .iter()
-        .map(|k| k.1)
-        .chain(run.pieces.iter().map(|p| p.key))
-    {
-        if !rows.contains_key(&key) {
-            let td = eng.topo_key(key)?;
-            let row = |i: usize| probe_row(&built.probes[i], &td.topo, &built.circuit);
-            rows.insert(
-                key,
-                [
-                    row(r.v_dc),
-                    row(r.line_i[0]),
-                    row(r.line_i[1]),
-                    row(r.line_i[2]),
-                ],
-            );
-        }
-    }
-    for k in &run.knots {
-        let rw = &rows[&k.1];
-        let v = dot(&rw[0], &k.2);
-        let i = [1, 2, 3].map(|j| dot(&rw[j], &k.2));
-        t_s.push(k.0);
-        v_dc.push(v);
-        ia.push(i[0]);
-        ib.push(i[1]);
-        ic.push(i[2]);
-        peak = peak.max(i[0].abs()).max(i[1].abs()).max(i[2].abs());
-        if charge.is_none() && v >= 0.9 * v_mean && v_mean > 0.0 {
-            charge = Some(k.0);
-        }
-    }
-    // Peaks between grid points: the middle of each whole step, and the
-    // Gauss nodes of pieces cut by a switching instant.
     let mut gs = Vec::new();
     let h_step = eng.h_s;
-    for p in &run.pieces {
-        let rw = &rows[&p.key];
-        if (p.dt_s - h_step).abs() < 1e-9 * h_step {
-            let td = eng.topo_key(p.key)?;
-            let z_mid = td.table[1].mul_vec(&p.z);
-            for row in &rw[1..] {
-                peak = peak.max(dot(row, &z_mid).abs());
-            }
-            continue;
-        }
-        eng.gauss_states_into(p, &mut gs)?;
-        for (_, _, z) in &gs {
-            for row in &rw[1..] {
-                peak = peak.max(dot(row, z).abs());
+    let (mut x, mut on) = (vec![0.0; nx], on0);
+    let mut c0 = 0;
+    while c0 < n_cycles {
+        let mut c1 = (c0 + CHUNK_CYCLES).min(n_cycles);
+        // A bypass closing at a set time is taken inside a chunk, never on
+        // its boundary (the run stops at it only strictly inside).
+        if let Some(rl) = rule.filter(|_| bypass_at_s.is_none()) {
+            while c1 < n_cycles && (rl.at_s - period * c1 as f64).abs() < 0.25 * period {
+                c1 += 1;
             }
         }
+        let run = eng.run(
+            &x,
+            &on,
+            &RunSpec {
+                t0_s: period * c0 as f64,
+                t1_s: period * c1 as f64,
+                record: true,
+                sensitivity: false,
+                contactor_close: if bypass_at_s.is_none() { rule } else { None },
+                coarse: false,
+            },
+        )?;
+        for key in run
+            .knots
+            .iter()
+            .map(|k| k.1)
+            .chain(run.pieces.iter().map(|p| p.key))
+        {
+            if !rows.contains_key(&key) {
+                let td = eng.topo_key(key)?;
+                let row = |i: usize| probe_row(&built.probes[i], &td.topo, &built.circuit);
+                rows.insert(
+                    key,
+                    [
+                        row(r.v_dc),
+                        row(r.line_i[0]),
+                        row(r.line_i[1]),
+                        row(r.line_i[2]),
+                    ],
+                );
+            }
+        }
+        // The first knot of a later chunk is the last of the one before.
+        let skip = usize::from(c0 > 0);
+        for k in run.knots.iter().skip(skip) {
+            let rw = &rows[&k.1];
+            let v = dot(&rw[0], &k.2);
+            let i = [1, 2, 3].map(|j| dot(&rw[j], &k.2));
+            t_s.push(k.0);
+            v_dc.push(v);
+            ia.push(i[0]);
+            ib.push(i[1]);
+            ic.push(i[2]);
+            peak = peak.max(i[0].abs()).max(i[1].abs()).max(i[2].abs());
+            if charge.is_none() && v >= 0.9 * v_mean && v_mean > 0.0 {
+                charge = Some(k.0);
+            }
+        }
+        // Peaks between grid points: the middle of each whole step, and the
+        // Gauss nodes of pieces cut by a switching instant.
+        for p in &run.pieces {
+            let rw = &rows[&p.key];
+            if (p.dt_s - h_step).abs() < 1e-9 * h_step {
+                let td = eng.topo_key(p.key)?;
+                let z_mid = td.table[1].mul_vec(&p.z);
+                for row in &rw[1..] {
+                    peak = peak.max(dot(row, &z_mid).abs());
+                }
+                continue;
+            }
+            eng.gauss_states_into(p, &mut gs)?;
+            for (_, _, z) in &gs {
+                for row in &rw[1..] {
+                    peak = peak.max(dot(row, z).abs());
+                }
+            }
+        }
+        if bypass_at_s.is_none() {
+            bypass_at_s = run
+                .events
+                .iter()
+                .find(|e| built.device_names.get(e.switch).is_none())
+                .map(|e| e.t_s);
+        }
+        x = run.x_end;
+        on = run.on_end;
+        c0 = c1;
     }
-    let bypass_at_s = run
-        .events
-        .iter()
-        .find(|e| built.device_names.get(e.switch).is_none())
-        .map(|e| e.t_s);
     if charge.is_none() {
         warnings.push(
             "the bus did not reach 90 % of its steady value within the power-up window".into(),

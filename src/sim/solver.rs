@@ -705,10 +705,9 @@ impl Engine {
                         if first.as_ref().is_none_or(|f| tau < f.0) {
                             first = Some((tau, usize::MAX, zr));
                         }
-                    } else if !at_grid
-                        && rule.at_s.is_finite()
-                        && (t_next - rule.at_s).abs() < end_tol
-                    {
+                    } else if rule.at_s.is_finite() && (t_next - rule.at_s).abs() < end_tol {
+                        // The stop at the closing time (a grid point too: a
+                        // bypass time on the grid once never closed).
                         contactor_now = true;
                     }
                 }

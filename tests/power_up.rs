@@ -1,0 +1,76 @@
+//! The power-up transient from a discharged bus, with a precharge resistor and
+//! its bypass (issue #3), on the built-in default scenario (a drive front end
+//! with a constant-power load, 50 Hz).
+//!
+//! The bounds are physical, not golden values: no current can exceed the
+//! supply's prospective short-circuit peak `2 sqrt2 I_sc` (the fully offset
+//! first peak of a short circuit is below twice the symmetrical peak; common
+//! practice), and once the bypass has closed the bus settles to the steady
+//! state's mean.
+
+use rectifield::analysis::analyze;
+use rectifield::scenario::Scenario;
+
+fn with_precharge(bypass_s: f64, bypass_pu: f64) -> Scenario {
+    let mut s = Scenario::default();
+    s.dc.precharge_r_ohm = 20.0;
+    s.dc.precharge_bypass_s = bypass_s;
+    s.dc.precharge_bypass_pu = bypass_pu;
+    s.analysis.transient_cycles = 60;
+    s
+}
+
+/// A bypass time on the grid (0.5 s is 25 whole cycles at 50 Hz, a grid
+/// point) once never closed; the transient then ran the whole window on the
+/// precharge resistor.
+#[test]
+fn bypass_closes_at_its_time_on_a_grid_point() {
+    let s = with_precharge(0.5, 0.0);
+    assert_eq!(s.supply.f_hz, 50.0, "the default scenario is 50 Hz");
+    let a = analyze(&s).expect("valid");
+    let tr = a
+        .sim
+        .expect("simulated")
+        .transient
+        .expect("transient asked for");
+    let at = tr.bypass_at_s.expect("the bypass closes");
+    assert!((at - 0.5).abs() < 1e-9, "bypass at {at} s");
+    let charge = tr.charge_time_s.expect("the bus charges");
+    assert!(charge >= 0.5, "charge time {charge} s, before the bypass");
+}
+
+/// A constant-power load was linearised about the steady bus voltage in the
+/// transient too: a negative resistance that, on a bus held low by the
+/// precharge resistor, grew without bound (an inrush peak of 5e22 A was
+/// reported).  It is now its equivalent resistance V0^2 / P.
+#[test]
+fn constant_power_load_power_up_stays_bounded() {
+    for (bypass_s, bypass_pu) in [(0.5, 0.0), (0.0, 0.8), (0.3, 0.0)] {
+        let s = with_precharge(bypass_s, bypass_pu);
+        let a = analyze(&s).expect("valid");
+        let i_limit = 2.0 * 2f64.sqrt() * a.derived.i_sc_a;
+        let sim = a.sim.expect("simulated");
+        let v_mean = sim.signals[sim.roles.v_dc].mean;
+        let tr = sim.transient.expect("transient asked for");
+        assert!(
+            tr.inrush_peak_a.is_finite() && tr.inrush_peak_a < i_limit,
+            "bypass {bypass_s} s / {bypass_pu} pu: inrush {} A against the prospective {} A",
+            tr.inrush_peak_a,
+            i_limit
+        );
+        let v_peak = 2f64.sqrt() * s.supply.v_ll_rms_v;
+        for v in &tr.v_dc {
+            assert!(
+                v.is_finite() && *v > -0.05 * v_peak && *v < 1.5 * v_peak,
+                "bus {v} V outside what the supply can make"
+            );
+        }
+        if tr.bypass_at_s.is_some() {
+            let end = *tr.v_dc.last().expect("samples");
+            assert!(
+                (end - v_mean).abs() < 0.05 * v_mean,
+                "bus {end} V at the end against the steady mean {v_mean} V"
+            );
+        }
+    }
+}
