@@ -256,7 +256,6 @@ pub struct Engine {
     pub v_tol_v: f64,
     cache: KeyMap<Rc<TopoData>>,
     pub max_events: usize,
-    pub n_expm: usize,
     pub n_events: usize,
     /// Periods (or transient intervals) marched, and topologies built.
     pub n_runs: usize,
@@ -298,7 +297,6 @@ impl Engine {
             v_tol_v,
             cache: KeyMap::default(),
             max_events: 400 * 64,
-            n_expm: 0,
             n_events: 0,
             n_runs: 0,
             total_events: 0,
