@@ -587,8 +587,21 @@ impl Engine {
         self.circuit.osc_at(&mut z, spec.t0_s);
         let mut on = on0.to_vec();
         let mut events = Vec::new();
-        let mut pieces = Vec::new();
-        let mut knots = Vec::new();
+        // A recorded run keeps a piece per step (plus the cut ones) and a
+        // knot per grid point: reserve for them once.
+        let steps_hint = if spec.record {
+            let h = self.h_s
+                * if spec.coarse {
+                    (1u64 << COARSE_LEVELS) as f64
+                } else {
+                    1.0
+                };
+            (((spec.t1_s - spec.t0_s) / h).max(0.0) as usize).saturating_add(2)
+        } else {
+            0
+        };
+        let mut pieces = Vec::with_capacity(steps_hint + steps_hint / 8 + 8);
+        let mut knots = Vec::with_capacity(steps_hint);
         let mut td = self.settle(&mut on, &z, spec.t0_s, &mut events, None)?;
         // Sensitivity of (x, p) to (x0, p0): rows and columns over `sub`.
         let sub = self.sens_index();
@@ -942,11 +955,14 @@ impl Engine {
     ) -> Result<(), SolveError> {
         let td = self.topo_key(p.key)?;
         out.resize_with(4, || (0.0, 0.0, Vec::new()));
+        let mut scratch = Vec::new();
         for (j, o) in out.iter_mut().enumerate() {
             let m = self.ticks(p.dt_s * (1.0 + GL4_X[j]) / 2.0);
             o.0 = p.t_s + self.tick_time(m);
             o.1 = GL4_W[j] * p.dt_s / 2.0;
-            o.2 = Self::prop_vec(&td, m, &p.z);
+            o.2.resize(p.z.len(), 0.0);
+            scratch.resize(p.z.len(), 0.0);
+            Self::prop_vec_into(&td, m, &p.z, &mut o.2, &mut scratch);
         }
         Ok(())
     }
