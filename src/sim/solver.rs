@@ -993,6 +993,9 @@ pub struct SteadyState {
     pub residual: f64,
     /// With a `ParamRule`: the period mean of its signal at the solution.
     pub mean: Option<f64>,
+    /// With a `ParamRule`: its signal's spread (max - min) over the period,
+    /// sampled at the quadrature nodes of the mean.
+    pub spread: Option<f64>,
     /// With a `ParamRule`: stopped early because `rule.restart` asked for it
     /// (the state is near periodic, not converged).
     pub restarted: bool,
@@ -1014,8 +1017,9 @@ pub struct ParamRule<'a> {
     /// is only defined for a positive mean.
     pub not_positive: (&'a str, &'a str),
     /// Stop early (once the state residual is below 1e-3) when this is true
-    /// of the mean: the caller changes the model and starts again from there.
-    pub restart: &'a dyn Fn(f64) -> bool,
+    /// of the mean and the spread: the caller changes the model and starts
+    /// again from there.
+    pub restart: &'a dyn Fn(f64, f64) -> bool,
 }
 
 /// Scale of each state for convergence tests.
@@ -1053,8 +1057,9 @@ pub fn solve_periodic(
 /// product.  (Over a coarse stride of 8 grid steps the error is below 1e-8
 /// of the mean for a bus whose ripple is a few percent at 6 f; the
 /// recording period's own figures use Gauss-Legendre on the fine grid.)
-fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<f64, SolveError> {
+fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f64), SolveError> {
     let mut acc = 0.0;
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
     let mut rows: KeyMap<Vec<f64>> = KeyMap::default();
     let n = run.pieces.first().map_or(0, |p| p.z.len());
     let (mut z_mid, mut tmp, mut z_end) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
@@ -1078,9 +1083,12 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<f64, Sol
                 dot(row, &z_end)
             }
         };
-        acc += p.dt_s / 6.0 * (dot(row, &p.z) + 4.0 * dot(row, &z_mid) + v_end);
+        let (v_start, v_mid) = (dot(row, &p.z), dot(row, &z_mid));
+        acc += p.dt_s / 6.0 * (v_start + 4.0 * v_mid + v_end);
+        lo = lo.min(v_start).min(v_mid);
+        hi = hi.max(v_start).max(v_mid);
     }
-    Ok(acc / eng.period_s)
+    Ok((acc / eng.period_s, (hi - lo).max(0.0)))
 }
 
 /// Newton shooting from a given initial state and switch states.
@@ -1133,9 +1141,12 @@ pub fn solve_periodic_from(
     let mut run = eng.run(&x0, &on0, &with_sens)?;
     let mut res: Vec<f64> = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
     let mut rn = norm(&res);
-    let mut mean = match rule {
-        Some(rl) => Some(run_mean(eng, &run, rl)?),
-        None => None,
+    let (mut mean, mut spread) = match rule {
+        Some(rl) => {
+            let (m, sp) = run_mean(eng, &run, rl)?;
+            (Some(m), Some(sp))
+        }
+        None => (None, None),
     };
     // Previous (p, q) for the secant step.
     let mut prev_pq: Option<(f64, f64)> = None;
@@ -1156,8 +1167,8 @@ pub fn solve_periodic_from(
             Some(rl) => q.abs() <= rl.tol_rel * p_now.abs().max(f64::MIN_POSITIVE),
             None => true,
         };
-        let restart = match (rule, mean) {
-            (Some(rl), Some(v)) => rn < 1e-3 && (rl.restart)(v),
+        let restart = match (rule, mean, spread) {
+            (Some(rl), Some(v), Some(sp)) => rn < 1e-3 && (rl.restart)(v, sp),
             _ => false,
         };
         if (rn < 1e-10 && q_ok) || restart {
@@ -1167,6 +1178,7 @@ pub fn solve_periodic_from(
                 iterations: it,
                 residual: rn,
                 mean,
+                spread,
                 restarted: restart,
                 recorded: if run_recorded && !restart {
                     Some(run)
@@ -1253,7 +1265,9 @@ pub fn solve_periodic_from(
             }
         }
         if let Some(rl) = rule {
-            mean = Some(run_mean(eng, &run, rl)?);
+            let (m, sp) = run_mean(eng, &run, rl)?;
+            mean = Some(m);
+            spread = Some(sp);
         }
     }
     if rn < 1e-7 && q_rel < 1e-6 {
@@ -1263,6 +1277,7 @@ pub fn solve_periodic_from(
             iterations: max_iter,
             residual: rn,
             mean,
+            spread,
             restarted: false,
             recorded: None,
         });
