@@ -313,11 +313,6 @@ impl Plan {
 /// Complex spectrum bins as (re, im).
 pub type Bins = Vec<C>;
 
-/// DFTs of two real sequences of the same length (see `Plan::two_real`).
-pub fn fft_two_real(a: &[f64], b: &[f64], h_max: usize) -> (Bins, Bins) {
-    Plan::new(a.len()).two_real(a, b, h_max)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -332,6 +327,10 @@ mod tests {
             im += v * th.sin();
         }
         (re, im)
+    }
+
+    fn fft_two_real(a: &[f64], b: &[f64], h_max: usize) -> (Bins, Bins) {
+        Plan::new(a.len()).two_real(a, b, h_max)
     }
 
     #[test]

@@ -50,22 +50,8 @@ impl Mat {
 
     /// `self * other`.
     pub fn mul(&self, other: &Mat) -> Mat {
-        debug_assert_eq!(self.cols, other.rows);
         let mut out = Mat::zeros(self.rows, other.cols);
-        let oc = other.cols;
-        for i in 0..self.rows {
-            let orow = &mut out.data[i * oc..(i + 1) * oc];
-            for k in 0..self.cols {
-                let a = self.data[i * self.cols + k];
-                if a == 0.0 {
-                    continue;
-                }
-                let brow = &other.data[k * oc..(k + 1) * oc];
-                for (o, b) in orow.iter_mut().zip(brow) {
-                    *o += a * b;
-                }
-            }
-        }
+        self.mul_into(other, &mut out);
         out
     }
 

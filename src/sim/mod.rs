@@ -306,11 +306,11 @@ fn steady(
         }
         built.circuit.param = eng.circuit.param;
         let ripple = next.spread.unwrap_or(f64::INFINITY);
-        if !next.restarted && (cc || !cpl_rebuild(mean_v, v_g, ripple)) {
-            st = Some(next);
+        let done = !next.restarted && (cc || !cpl_rebuild(mean_v, v_g, ripple));
+        st = Some(next);
+        if done {
             break;
         }
-        st = Some(next);
         // Rebuild the incremental conductance about the new mean.
         let mut c = eng.circuit.clone();
         if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
@@ -522,20 +522,17 @@ fn simulate_with(
         steady(&mut built, s, &cfg, period).map_err(|e| explain_failure(s, d, e))?;
     // The recording period: the converging Newton period itself when it was
     // marched on the fine grid, else one more period from the solution.
+    let record = RunSpec {
+        t0_s: 0.0,
+        t1_s: period,
+        record: true,
+        sensitivity: false,
+        contactor_close: None,
+        coarse: false,
+    };
     let run = match st.recorded.take() {
         Some(run) => run,
-        None => eng.run(
-            &st.x0,
-            &st.on0,
-            &RunSpec {
-                t0_s: 0.0,
-                t1_s: period,
-                record: true,
-                sensitivity: false,
-                contactor_close: None,
-                coarse: false,
-            },
-        )?,
+        None => eng.run(&st.x0, &st.on0, &record)?,
     };
     // The recording period marches the fine grid: confirm it is periodic (a
     // conduction pulse shorter than a coarse stride would show here), else
@@ -557,18 +554,7 @@ fn simulate_with(
             40,
             None,
         )?;
-        let run2 = eng.run(
-            &st2.x0,
-            &st2.on0,
-            &RunSpec {
-                t0_s: 0.0,
-                t1_s: period,
-                record: true,
-                sensitivity: false,
-                contactor_close: None,
-                coarse: false,
-            },
-        )?;
+        let run2 = eng.run(&st2.x0, &st2.on0, &record)?;
         (run2, st2)
     } else {
         (run, st)
