@@ -209,6 +209,12 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
             if let Some(b) = t.bypass_at_s {
                 line(&mut o, "precharge bypass closed at", b * 1e3, "ms");
             }
+            if matches!(s.dc.load, crate::scenario::DcLoad::ConstantPower { .. }) {
+                let _ = writeln!(
+                    o,
+                    "  note: the constant-power load is its equivalent resistance at the steady bus voltage\n        throughout; a drive that holds its inverter off until the bus is charged charges sooner"
+                );
+            }
         }
     }
 

@@ -1024,6 +1024,7 @@
   const PLOT = globalThis.RectifieldPlot;
   const plots = {}; // tab id -> plot
   let analysis = null;
+  let analysedLoadKind = null; // dc.load.kind of the scenario behind `analysis`
   let waves = null; // {t, sig: [Float64Array]}
   let activeTab = "waves";
 
@@ -1232,6 +1233,15 @@
         analysis
       )
     );
+    if (analysedLoadKind === "constant_power") {
+      figs.appendChild(
+        el(
+          "p",
+          { class: "note", id: "transient-cpl-note" },
+          "The constant-power load is shown as its equivalent resistance at the steady bus voltage throughout the power-up. A drive that holds its inverter off until the bus is charged loads the precharge resistor less: its bus charges sooner and higher than shown."
+        )
+      );
+    }
     const col = colors();
     plots.transient = PLOT.create(host, {
       title: "Power-up transient",
@@ -1458,6 +1468,7 @@
     }
     $("#engine-failure").hidden = true;
     analysis = a;
+    analysedLoadKind = scenario.dc && scenario.dc.load ? scenario.dc.load.kind : null;
     try {
       const flat = wasm_bindgen.waveforms();
       const n = a.sim ? flat.length / (a.sim.signals.length + 1) : 0;

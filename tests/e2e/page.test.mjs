@@ -512,6 +512,10 @@ for (const b of BROWSERS) {
       await page.waitForSelector("#plot-transient canvas");
       const inrush = await num("sim.transient.inrush_peak_a");
       assert.ok(inrush > 0, "inrush peak");
+      // With a constant-power load the page says how the power-up models it,
+      // and only then.
+      const loadKind = await page.$eval("#load_kind", (e) => e.value);
+      assert.equal(!!(await page.$("#transient-cpl-note")), loadKind === "constant_power", `power-up note, load ${loadKind}`);
       await shotOf("#out-plots", "plot-power-up");
 
       await page.click('[data-tab="sweep"]');
