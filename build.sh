@@ -31,7 +31,8 @@ Commands:
   (none)    Build the offline page into dist/ (installs missing build tools first:
             the wasm32 Rust target, wasm-bindgen-cli at the version in Cargo.lock,
             the npm packages pinned in package-lock.json, and Debian's zopfli).  Open
-            dist/index.html by double-click; copy the dist folder anywhere.
+            dist/index.html by double-click: it is the whole page in one file
+            (copy it alone, or the dist folder for the installable copy).
   test      The one test command (what CI runs): installs its own prerequisites
             (apt: chromium, chromium-driver, firefox-esr, ngspice, zopfli), then rustfmt,
             clippy (native and wasm32), native tests, wasm-bindgen tests in Node
@@ -199,39 +200,50 @@ bind_and_opt() {
 }
 
 assemble_dist() {
-  rm -rf "$DIST.tmp"
-  mkdir -p "$DIST.tmp"
-  cp -R www/. "$DIST.tmp/"
-  cp "$WEB/${CRATE}_wasm.js" "$DIST.tmp/${CRATE}_wasm.js"
-  cp "$WEB/bindgen/${CRATE}.js" "$DIST.tmp/${CRATE}_glue.js"
+  # The page as separate files first (target/web/page: www/, the engine and the
+  # glue, minified, uPlot), then dist/ from it: one self-contained index.html,
+  # the manifest and icons of the installed copy, and sw.js.
+  local stage="$WEB/page"
+  rm -rf "$stage" "$DIST.tmp"
+  mkdir -p "$stage"
+  cp -R www/. "$stage/"
+  cp "$WEB/${CRATE}_wasm.js" "$stage/${CRATE}_wasm.js"
+  cp "$WEB/bindgen/${CRATE}.js" "$stage/${CRATE}_glue.js"
   # Our scripts and the wasm-bindgen glue, minified by terser (npm, pinned):
   # compress and mangle local names only (no --toplevel), so every global the
   # scripts share (wasm_bindgen, RectifieldUnits, ...) keeps its name.  About
-  # 12 kB less gzipped in dist/ and again in rectifield.html.  The readable
-  # sources are www/ and target/web/bindgen/.
+  # 12 kB less gzipped.  The readable sources are www/ and target/web/bindgen/.
   local js
-  for js in "$DIST.tmp"/*.js; do
+  for js in "$stage"/*.js; do
     node_modules/.bin/terser "$js" --compress --mangle --output "$js.min"
     mv "$js.min" "$js"
   done
   # The plotting library, vendored from npm (pinned in package-lock.json), with its licence.
   local up=node_modules/uplot
   [ -f "$up/dist/uPlot.iife.min.js" ] || die "$up missing: run npm ci (./build.sh installs it)"
-  mkdir -p "$DIST.tmp/vendor"
-  cp "$up/dist/uPlot.iife.min.js" "$up/dist/uPlot.min.css" "$DIST.tmp/vendor/"
-  cp "$up/LICENSE" "$DIST.tmp/vendor/uPlot.LICENSE"
-  # The single self-contained rectifield.html, and sw.js (every file of the
-  # build, versioned by a hash of them) for the installed copy (issue #11).
-  node tools/dist-extras.mjs "$DIST.tmp"
+  mkdir -p "$stage/vendor"
+  cp "$up/dist/uPlot.iife.min.js" "$up/dist/uPlot.min.css" "$stage/vendor/"
+  cp "$up/LICENSE" "$stage/vendor/uPlot.LICENSE"
+  # dist/index.html is the single self-contained page (the folder and the file
+  # that travels alone are the same page), with the installed copy's files
+  # beside it; then sw.js (every file of dist/, versioned by a hash of them).
+  node tools/dist-extras.mjs page "$stage" "$DIST.tmp"
+  node tools/dist-extras.mjs sw "$DIST.tmp"
   rm -rf "$DIST"
   mv "$DIST.tmp" "$DIST"
-  [ -f "$DIST/index.html" ] || die "www/index.html is missing"
+  [ -f "$DIST/index.html" ] || die "dist/index.html was not written"
 }
 
 report_dist() {
   say "dist: $DIST"
-  (cd "$DIST" && ls -l)
+  (cd "$DIST" && ls -lR)
   printf 'total size: %s (%s bytes)\n' "$(du -sh "$DIST" | cut -f1)" "$(du -sb "$DIST" | cut -f1)"
+  # The size measure of bench/run (issue #10): gzip -9 of each file, summed.
+  local gz=0 f
+  while IFS= read -r -d '' f; do
+    gz=$((gz + $(gzip -9 -c "$f" | wc -c)))
+  done < <(find "$DIST" -type f -print0)
+  printf 'gzip -9 of each file, summed: %s bytes\n' "$gz"
   printf 'open: file://%s/index.html\n' "$DIST"
 }
 

@@ -1,70 +1,93 @@
-// Page build, last step (run by build.sh on the assembled dist folder):
-//  1. rectifield.html: the whole page in one self-contained file (scripts,
-//     styles, the wasm as base64, uPlot, the icon inlined);
-//  2. sw.js: the service worker for the installed copy, with the list of every
-//     file of the build and a build id (a hash of those files), so that a new
-//     build is a new cache.
-// Usage: node tools/dist-extras.mjs DIST_DIR
+// Page build, last steps (run by build.sh).  dist/ holds one copy of the page:
+//
+//   node tools/dist-extras.mjs page STAGE_DIR DIST_DIR
+//     DIST_DIR/index.html: STAGE_DIR/index.html with every script, stylesheet
+//     and the icon of the staged page inlined (the wasm as base64, uPlot and
+//     its licence included), so that the one file works alone; plus the files
+//     of the installed copy (manifest.webmanifest, icons/) copied beside it.
+//   node tools/dist-extras.mjs sw DIST_DIR
+//     DIST_DIR/sw.js: the service worker for the installed copy, with the list
+//     of every file in DIST_DIR and a build id (a hash of those files), so that
+//     a new build is a new cache.
+//
+// Usage as build.sh runs it: `page target/web/page dist.tmp`, then `sw dist.tmp`.
 import fs from "node:fs";
 import path from "node:path";
 import crypto from "node:crypto";
 
-const dir = path.resolve(process.argv[2] || "dist");
 const die = (m) => {
   console.error(`dist-extras: ${m}`);
   process.exit(1);
 };
-const read = (rel) => {
-  const p = path.join(dir, rel);
-  if (!fs.existsSync(p)) die(`${rel} (referenced by index.html) is missing`);
-  return fs.readFileSync(p);
-};
 
-for (const f of ["sw.js", "rectifield.html"]) fs.rmSync(path.join(dir, f), { force: true });
+// The files of the installed copy that travel beside the page (relative to the
+// staged page).  Nothing else of the staged folder ships: the page itself
+// carries its scripts, styles and engine.
+const INSTALLED = ["manifest.webmanifest", "icons"];
 
-// ---------------------------------------------------------------- one file
-let html = fs.readFileSync(path.join(dir, "index.html"), "utf8");
-html = html.replace(/<html\b/, '<html data-single-file="1"');
-html = html.replace(/<link rel="stylesheet" href="([^"]+)">/g, (_, href) => {
-  const css = read(href).toString("utf8");
-  if (/<\/style/i.test(css)) die(`${href} contains </style`);
-  return `<style>/* ${href} */\n${css}\n</style>`;
-});
-html = html.replace(/<script src="([^"]+)"><\/script>/g, (_, src) => {
-  const js = read(src).toString("utf8").replace(/<\/script/gi, "<\\/script");
-  if (js.includes("<!--")) die(`${src} contains <!--`);
-  return `<script>/* ${src} */\n${js}\n</script>`;
-});
-html = html.replace(/<link rel="icon" href="([^"]+)" type="([^"]+)">/g, (_, href, type) => {
-  return `<link rel="icon" href="data:${type};base64,${read(href).toString("base64")}" type="${type}">`;
-});
-// Nothing may still point at a sibling file (only in-page anchors and data: URLs).
-const left = [...html.matchAll(/<(?:script|link|img)\b[^>]*\b(?:src|href)="(?!data:|#)([^"]*)"/g)].map((m) => m[1]);
-if (left.length) die(`rectifield.html still references files: ${left.join(", ")}`);
-// uPlot's licence travels with the file.
-const lic = read("vendor/uPlot.LICENSE").toString("utf8").replace(/--/g, "- -");
-html = html.replace(/<\/html>\s*$/, `<!--\nuPlot (embedded above), its licence:\n${lic}\n-->\n</html>\n`);
-fs.writeFileSync(path.join(dir, "rectifield.html"), html);
+function page(stage, out) {
+  const read = (rel) => {
+    const p = path.join(stage, rel);
+    if (!fs.existsSync(p)) die(`${rel} (referenced by index.html) is missing`);
+    return fs.readFileSync(p);
+  };
+  let html = read("index.html").toString("utf8");
+  if (html.includes("data-single-file")) die(`${stage}/index.html is already a single file`);
+  html = html.replace(/<html\b/, '<html data-single-file="1"');
+  html = html.replace(/<link rel="stylesheet" href="([^"]+)">/g, (_, href) => {
+    const css = read(href).toString("utf8");
+    if (/<\/style/i.test(css)) die(`${href} contains </style`);
+    return `<style>/* ${href} */\n${css}\n</style>`;
+  });
+  html = html.replace(/<script src="([^"]+)"><\/script>/g, (_, src) => {
+    const js = read(src).toString("utf8").replace(/<\/script/gi, "<\\/script");
+    if (js.includes("<!--")) die(`${src} contains <!--`);
+    return `<script>/* ${src} */\n${js}\n</script>`;
+  });
+  html = html.replace(/<link rel="icon" href="([^"]+)" type="([^"]+)">/g, (_, href, type) => {
+    return `<link rel="icon" href="data:${type};base64,${read(href).toString("base64")}" type="${type}">`;
+  });
+  // Nothing may still point at a sibling file (only in-page anchors and data: URLs).
+  const left = [...html.matchAll(/<(?:script|link|img)\b[^>]*\b(?:src|href)="(?!data:|#)([^"]*)"/g)].map((m) => m[1]);
+  if (left.length) die(`index.html still references files: ${left.join(", ")}`);
+  // uPlot's licence travels with the file.
+  const lic = read("vendor/uPlot.LICENSE").toString("utf8").replace(/--/g, "- -");
+  html = html.replace(/<\/html>\s*$/, `<!--\nuPlot (embedded above), its licence:\n${lic}\n-->\n</html>\n`);
+  if (!html.includes("uPlot (embedded above), its licence:")) die("the uPlot licence was not appended");
 
-// ---------------------------------------------------------------- sw.js
-function walk(rel) {
+  fs.mkdirSync(out, { recursive: true });
+  fs.writeFileSync(path.join(out, "index.html"), html);
+  for (const rel of INSTALLED) fs.cpSync(path.join(stage, rel), path.join(out, rel), { recursive: true });
+  // Every icon the manifest names ships.
+  const man = JSON.parse(fs.readFileSync(path.join(out, "manifest.webmanifest"), "utf8"));
+  for (const ic of man.icons || []) {
+    if (!fs.existsSync(path.join(out, ic.src))) die(`manifest icon ${ic.src} is not in the build`);
+  }
+  console.log(`dist-extras: index.html (${fs.statSync(path.join(out, "index.html")).size} bytes, self-contained)`);
+}
+
+function walk(dir, rel) {
   const out = [];
   for (const e of fs.readdirSync(path.join(dir, rel), { withFileTypes: true })) {
     const r = rel ? `${rel}/${e.name}` : e.name;
-    if (e.isDirectory()) out.push(...walk(r));
+    if (e.isDirectory()) out.push(...walk(dir, r));
     else out.push(r);
   }
   return out;
 }
-const files = walk("").filter((f) => f !== "sw.js").sort();
-const h = crypto.createHash("sha256");
-for (const f of files) {
-  h.update(f + "\0");
-  h.update(fs.readFileSync(path.join(dir, f)));
-  h.update("\0");
-}
-const build = h.digest("hex").slice(0, 16);
-const sw = `// Generated by build.sh (tools/dist-extras.mjs): Rectifield's service worker.
+
+function sw(dir) {
+  fs.rmSync(path.join(dir, "sw.js"), { force: true });
+  const files = walk(dir, "").sort();
+  if (!files.includes("index.html")) die(`${dir}/index.html is missing`);
+  const h = crypto.createHash("sha256");
+  for (const f of files) {
+    h.update(f + "\0");
+    h.update(fs.readFileSync(path.join(dir, f)));
+    h.update("\0");
+  }
+  const build = h.digest("hex").slice(0, 16);
+  const src = `// Generated by build.sh (tools/dist-extras.mjs): Rectifield's service worker.
 // Used only when the page is served over http(s); never on file://.  It keeps
 // every file of one build in a cache named after the build id, serves the page
 // from that cache (so it works with no network), and a new build waits until
@@ -107,5 +130,11 @@ self.addEventListener("fetch", (ev) => {
   );
 });
 `;
-fs.writeFileSync(path.join(dir, "sw.js"), sw);
-console.log(`dist-extras: rectifield.html (${fs.statSync(path.join(dir, "rectifield.html")).size} bytes), sw.js (build ${build}, ${files.length} files)`);
+  fs.writeFileSync(path.join(dir, "sw.js"), src);
+  console.log(`dist-extras: sw.js (build ${build}, ${files.length} files)`);
+}
+
+const [cmd, a, b] = process.argv.slice(2);
+if (cmd === "page" && a && b) page(path.resolve(a), path.resolve(b));
+else if (cmd === "sw" && a) sw(path.resolve(a));
+else die("usage: dist-extras.mjs page STAGE_DIR DIST_DIR | sw DIST_DIR");

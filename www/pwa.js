@@ -1,6 +1,8 @@
 // Rectifield as an installed app: only when the page is served over http(s)
-// (an intranet share, a laptop running a static server), never on file:// and
-// never in the single-file copy.  Adds the manifest link, registers the
+// (an intranet share, a laptop running a static server), never on file://.
+// The built page is one self-contained file (html[data-single-file]) whether
+// it is served or opened from the disk; served with the rest of dist/ beside
+// it, it is also the installed copy.  Adds the manifest link, registers the
 // service worker (sw.js, written by build.sh with the build id), and says when
 // a new build is ready instead of mixing old and new files: the new build
 // waits until the user accepts it, then the page reloads once.
@@ -9,7 +11,7 @@
 (function () {
   const root = document.documentElement;
   const served = location.protocol === "http:" || location.protocol === "https:";
-  if (!served || root.hasAttribute("data-single-file") || !("serviceWorker" in navigator)) {
+  if (!served || !("serviceWorker" in navigator)) {
     root.setAttribute("data-sw", "off");
     return;
   }

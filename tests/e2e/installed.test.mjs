@@ -1,6 +1,8 @@
 // The installable copy (issue #11): dist/ served on 127.0.0.1 by a small
-// static server started here, in headless Chromium.  The service worker
-// installs and caches every file of the build; with the browser offline and
+// static server started here, in headless Chromium.  The served page is the
+// same self-contained dist/index.html that works alone from file://; served,
+// it registers the service worker, which installs and caches every file of
+// the build (the page, the manifest, the icons); with the browser offline and
 // the server refusing every request, a reload still loads the page and
 // computes; a second build with a change is reported by the page, and after
 // the user accepts it the new version runs.  Any console error fails.
@@ -39,6 +41,7 @@ describe("installed copy in chromium (served on 127.0.0.1)", { timeout: 300000 }
   let origin;
   let refuse = false;
   const refused = [];
+  const served = []; // every path the server answered
   let browser;
   let profile;
   let page;
@@ -55,6 +58,7 @@ describe("installed copy in chromium (served on 127.0.0.1)", { timeout: 300000 }
         req.socket.destroy();
         return;
       }
+      served.push(url.pathname);
       let rel = decodeURIComponent(url.pathname).replace(/^\/+/, "");
       if (rel === "" || rel.endsWith("/")) rel += "index.html";
       const file = path.join(root, rel);
@@ -123,18 +127,26 @@ describe("installed copy in chromium (served on 127.0.0.1)", { timeout: 300000 }
     await page.goto(origin + "/index.html", { waitUntil: "load" });
     await loaded();
     await page.waitForSelector('html[data-sw="ready"]');
+    assert.equal(await page.$eval("html", (e) => e.getAttribute("data-single-file")), "1", "the served page is the single file");
     const manifest = await page.$eval('link[rel="manifest"]', (e) => e.href);
     assert.equal(manifest, origin + "/manifest.webmanifest");
     const c = await cached();
     assert.deepEqual(Object.keys(c), [`rectifield-${b1.id}`]);
     const want = b1.files.map((f) => "/" + f.replace(/^\.\//, "")).sort();
     assert.deepEqual(c[`rectifield-${b1.id}`].slice().sort(), want);
-    for (const f of ["/index.html", "/rectifield_wasm.js", "/vendor/uPlot.iife.min.js", "/rectifield.html", "/icons/icon-192.png"]) {
-      assert.ok(want.includes(f), `${f} in the cache list`);
-    }
-    // The manifest names our own icons, all in the build.
+    // The whole build: the page, the manifest and its icons (and "/" for the folder URL).
     const man = JSON.parse(fs.readFileSync(path.join(root, "manifest.webmanifest"), "utf8"));
-    for (const ic of man.icons) assert.ok(want.includes("/" + ic.src), `${ic.src} cached`);
+    assert.deepEqual(want, ["/", "/index.html", "/manifest.webmanifest", ...man.icons.map((ic) => "/" + ic.src)].sort());
+    // The browser reads the manifest without errors and finds the page installable.
+    const cdp = await page.createCDPSession();
+    const am = await cdp.send("Page.getAppManifest");
+    assert.equal(am.url, origin + "/manifest.webmanifest");
+    assert.deepEqual(am.errors, [], "manifest parse errors");
+    const inst = await cdp.send("Page.getInstallabilityErrors");
+    assert.deepEqual(inst.installabilityErrors, [], "installability errors");
+    await cdp.detach();
+    // Nothing but the build's files and sw.js was asked of the server.
+    for (const p of served) assert.ok(p === "/sw.js" || want.includes(p), `served ${p}, not in the build`);
     await page.reload({ waitUntil: "load" });
     await loaded();
     assert.equal(await page.evaluate(() => !!navigator.serviceWorker.controller), true, "the page is served by the worker");
@@ -156,12 +168,13 @@ describe("installed copy in chromium (served on 127.0.0.1)", { timeout: 300000 }
 
   test("a second build with a change: the page reports the update, and runs it once accepted", async () => {
     const b1 = buildOf(root);
-    // The change: a new tagline, then the page build's last step as build.sh runs it.
+    // The change: a new tagline in the page, then the build's last step (sw.js) as build.sh runs it.
     const idx = path.join(root, "index.html");
     const html = fs.readFileSync(idx, "utf8");
     const marker = "Second build for the update test.";
+    assert.ok(/<p class="tagline">/.test(html));
     fs.writeFileSync(idx, html.replace(/(<p class="tagline">)/, `$1${marker} `));
-    execFileSync("node", [path.resolve("tools/dist-extras.mjs"), root]);
+    execFileSync("node", [path.resolve("tools/dist-extras.mjs"), "sw", root]);
     const b2 = buildOf(root);
     assert.notEqual(b2.id, b1.id, "the build id follows the files");
     refuse = false;

@@ -15,10 +15,17 @@ const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..')
 const cli = process.argv[2] || path.join(root, 'target/release/rectifield');
 const dist = path.join(root, 'dist');
 
-// Load the page's engine files into a sandbox, as a classic-script page would.
+// Load the page's engine scripts into a sandbox, as a classic-script page would:
+// dist/index.html is one self-contained file, so they are taken from its inline
+// <script> elements (tools/dist-extras.mjs marks each with its file name).
+const html = readFileSync(path.join(dist, 'index.html'), 'utf8');
 const ctx = vm.createContext({ console, TextDecoder, TextEncoder, WebAssembly, URL, Uint8Array, Float64Array });
 for (const f of ['rectifield_wasm.js', 'rectifield_glue.js']) {
-  vm.runInContext(readFileSync(path.join(dist, f), 'utf8'), ctx, { filename: f });
+  const head = `<script>/* ${f} */\n`;
+  const at = html.indexOf(head);
+  if (at < 0) throw new Error(`dist/index.html has no inline ${f}`);
+  const end = html.indexOf('\n</script>', at + head.length);
+  vm.runInContext(html.slice(at + head.length, end), ctx, { filename: f });
 }
 vm.runInContext('this.__wb = wasm_bindgen; this.__b64 = RECTIFIELD_WASM_GZIP_BASE64;', ctx);
 // The page inflates the gzipped engine with DecompressionStream; here zlib does.
