@@ -210,9 +210,21 @@ fn scaling(path: &str, budget: Duration) -> Value {
             reps,
             Duration::ZERO,
         );
+        // The same points solved independently (cold starts, `sweep::point`).
+        let ind = time_it(
+            || {
+                for x in rectifield::sweep::xs(&spec) {
+                    black_box(rectifield::sweep::point(black_box(&s), spath, x));
+                }
+            },
+            0,
+            reps,
+            reps,
+            Duration::ZERO,
+        );
         sw.push(
             json!({"points": points, "path": spath, "from": from, "to": to,
-                       "failed_points": failed, "sweep": st}),
+                       "failed_points": failed, "sweep": st, "independent": ind}),
         );
     }
     json!({"file": path, "h_max": h, "transient_cycles": tr, "sweep": sw})

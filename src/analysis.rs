@@ -93,6 +93,16 @@ pub fn alpha_rad(s: &Scenario) -> f64 {
 
 /// Analyse one scenario.
 pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
+    analyze_from(s, None)
+}
+
+/// [`analyze`] with the simulation started from a nearby solution (a
+/// sweep's previous point: `analysis.sim.warm_start`); see
+/// [`crate::sim::WarmStart`].
+pub fn analyze_from(
+    s: &Scenario,
+    warm: Option<&crate::sim::WarmStart>,
+) -> Result<Analysis, FieldError> {
     let mut warnings = crate::validate::validate(s)?;
     let derived = params::derive(s)?;
     crate::compliance::validate(&s.compliance)?;
@@ -106,7 +116,7 @@ pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
         i_d_a: id,
         h_max: s.analysis.h_max.clamp(1, 100),
     })?;
-    let (sim, results) = match crate::sim::simulate(s, &derived) {
+    let (sim, results) = match crate::sim::simulate_from(s, &derived, warm) {
         Ok(sim) => {
             warnings.extend(sim.warnings.iter().cloned());
             let r = crate::results::compute(s, &derived, &sim, &textbook);

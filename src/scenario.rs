@@ -347,6 +347,12 @@ pub fn from_json(text: &str) -> Result<Scenario, String> {
     } else {
         return Err("scenario: must be a JSON object".into());
     }
+    from_value(value)
+}
+
+/// A scenario from a JSON value already in the current schema (no version
+/// check or migration), naming the path of a bad field.
+pub fn from_value(value: serde_json::Value) -> Result<Scenario, String> {
     serde_path_to_error::deserialize(value).map_err(|e| {
         let path = e.path().to_string();
         format!(

@@ -1,7 +1,7 @@
 //! Sweeps: any scenario field varied over a range, with the headline results
 //! at each point, and the headline summary of one analysis.
 
-use crate::analysis::{analyze, Analysis};
+use crate::analysis::{analyze_from, Analysis};
 use crate::scenario::Scenario;
 use serde::{Deserialize, Serialize};
 
@@ -176,7 +176,13 @@ pub fn parse_vary(text: &str) -> Result<SweepSpec, String> {
 
 /// A copy of `s` with the numeric field at `path` set to `value`.
 pub fn with_value(s: &Scenario, path: &str, value: f64) -> Result<Scenario, String> {
-    let mut v = serde_json::to_value(s).map_err(|e| e.to_string())?;
+    let v = serde_json::to_value(s).map_err(|e| e.to_string())?;
+    with_value_in(v, path, value)
+}
+
+/// The scenario `v` (a serialised [`Scenario`]) with the numeric field at
+/// `path` set to `value`.
+fn with_value_in(mut v: serde_json::Value, path: &str, value: f64) -> Result<Scenario, String> {
     let mut cur = &mut v;
     for key in path.split('.') {
         cur = match cur {
@@ -203,7 +209,7 @@ pub fn with_value(s: &Scenario, path: &str, value: f64) -> Result<Scenario, Stri
     } else {
         serde_json::json!(value)
     };
-    crate::scenario::from_json(&v.to_string())
+    crate::scenario::from_value(v)
 }
 
 /// The x values of a sweep.
@@ -216,34 +222,90 @@ pub fn xs(spec: &SweepSpec) -> Vec<f64> {
         .collect()
 }
 
-/// Run one sweep point.
+/// Run one sweep point on its own (a cold solve; see [`Sweeper`] for a run
+/// of points).
 pub fn point(s: &Scenario, path: &str, x: f64) -> SweepPoint {
-    match with_value(s, path, x).and_then(|sc| analyze(&sc).map_err(|e| e.to_string())) {
-        Ok(a) => {
-            let summary = summarize(&a);
-            let error = if summary.is_none() {
-                a.warnings.first().cloned()
-            } else {
-                None
-            };
-            SweepPoint { x, summary, error }
+    Sweeper::new_unchecked(s, path).point(x)
+}
+
+/// A run of sweep points over one field of one scenario.  Each point's
+/// simulation starts from the previous solved point (`sim::WarmStart`): no
+/// warm-up periods and fewer Newton iterations, the same periodic solution.
+/// A point leaves out what the summary does not show: the power-up
+/// transient (`analysis.transient_cycles` is set to 0) and the compliance
+/// fix search (`compliance.search_fixes` off), each of which costs whole
+/// extra simulations.
+pub struct Sweeper {
+    /// The scenario as serialised, so that a point only sets one number.
+    base: serde_json::Value,
+    path: String,
+    /// The last two solved points (x, their warm starts), newest last.
+    solved: Vec<(f64, crate::sim::WarmStart)>,
+}
+
+impl Sweeper {
+    /// A sweeper of the numeric field at `path` of `s`; an error when the
+    /// path does not name a numeric field.
+    pub fn new(s: &Scenario, path: &str) -> Result<Sweeper, String> {
+        // Any value will do to check the path (scenario parsing checks no ranges).
+        with_value(s, path, 1.0)?;
+        Ok(Sweeper::new_unchecked(s, path))
+    }
+
+    fn new_unchecked(s: &Scenario, path: &str) -> Sweeper {
+        let mut base = s.clone();
+        base.analysis.transient_cycles = 0;
+        base.compliance.search_fixes = false;
+        Sweeper {
+            base: serde_json::to_value(&base).unwrap_or_default(),
+            path: path.to_string(),
+            solved: Vec::new(),
         }
-        Err(e) => SweepPoint {
-            x,
-            summary: None,
-            error: Some(e),
-        },
+    }
+
+    /// The point with the field set to `x`.  A failing point carries its
+    /// error, and the next point starts from the last solved one.
+    pub fn point(&mut self, x: f64) -> SweepPoint {
+        // The start: the last solved point, extrapolated through the one
+        // before when the new point lies on the same line.
+        let warm = match self.solved.as_slice() {
+            [(x0, w0), (x1, w1)] => Some(w1.extrapolate(w0, (x - x1) / (x1 - x0))),
+            [(_, w1)] => Some(w1.clone()),
+            _ => None,
+        };
+        let analysed = with_value_in(self.base.clone(), &self.path, x)
+            .and_then(|sc| analyze_from(&sc, warm.as_ref()).map_err(|e| e.to_string()));
+        match analysed {
+            Ok(a) => {
+                if let Some(w) = a.sim.as_ref().and_then(|r| r.warm_start.clone()) {
+                    if self.solved.len() == 2 {
+                        self.solved.remove(0);
+                    }
+                    self.solved.push((x, w));
+                }
+                let summary = summarize(&a);
+                let error = if summary.is_none() {
+                    a.warnings.first().cloned()
+                } else {
+                    None
+                };
+                SweepPoint { x, summary, error }
+            }
+            Err(e) => SweepPoint {
+                x,
+                summary: None,
+                error: Some(e),
+            },
+        }
     }
 }
 
-/// Run a sweep (every point independent; a failing point carries its error).
+/// Run a sweep (a failing point carries its error).
 pub fn sweep(s: &Scenario, spec: &SweepSpec) -> Result<Vec<SweepPoint>, String> {
     // Check the path once before running.
     with_value(s, &spec.path, spec.from)?;
-    Ok(xs(spec)
-        .into_iter()
-        .map(|x| point(s, &spec.path, x))
-        .collect())
+    let mut run = Sweeper::new_unchecked(s, &spec.path);
+    Ok(xs(spec).into_iter().map(|x| run.point(x)).collect())
 }
 
 /// CSV of a sweep: the varied path, then the summary fields.

@@ -11,7 +11,7 @@
 #![cfg(target_arch = "wasm32")]
 
 use js_sys::{Array, Reflect};
-use rectifield::wasm::{analyze_json, default_scenario, version};
+use rectifield::wasm::{analyze_json, default_scenario, sweep_point, version, SweepRun};
 use std::f64::consts::{PI, SQRT_2};
 use wasm_bindgen::{JsCast, JsValue};
 use wasm_bindgen_test::*;
@@ -108,4 +108,34 @@ fn bad_input_throws_a_message_naming_the_field() {
 
     let err = analyze_json("not json").expect_err("not JSON");
     assert!(err.as_string().unwrap_or_default().contains("JSON"));
+}
+
+#[wasm_bindgen_test]
+fn a_sweep_run_gives_the_figures_of_independent_points() {
+    // The default scenario's supply voltage varied: a run (each point from
+    // the previous solved one) against the same points solved on their own.
+    // Both are the same periodic solution; 1e-6 is far above the Newton
+    // tolerance (see tests/sweep_warm.rs).  Expected DC mean: near the ideal
+    // Vdo = 1.3505 V_LL (Mohan, Undeland and Robbins, 3rd ed., ch. 5) less the
+    // load's drops, so between 1.2 and 1.45 V_LL.
+    let mut run = SweepRun::new("{}", "supply.v_ll_rms_v").expect("a numeric field");
+    for v in [380.0, 400.0, 420.0] {
+        let a = run.point(v).expect("point");
+        let b = sweep_point("{}", "supply.v_ll_rms_v", v).expect("point");
+        let (va, vb) = (num(&a, "summary.v_dc_avg_v"), num(&b, "summary.v_dc_avg_v"));
+        assert!(close(va, vb, 1e-6), "{v} V: run {va}, independent {vb}");
+        let (ia, ib) = (
+            num(&a, "summary.i_line_rms_a"),
+            num(&b, "summary.i_line_rms_a"),
+        );
+        assert!(close(ia, ib, 1e-6), "{v} V: run {ia}, independent {ib}");
+        assert!(va > 1.2 * v && va < 1.45 * v, "{v} V gives {va} V DC");
+    }
+    let err = SweepRun::new("{}", "supply.no_such_field")
+        .err()
+        .expect("an unknown field is refused");
+    assert!(err
+        .as_string()
+        .unwrap_or_default()
+        .contains("no_such_field"));
 }

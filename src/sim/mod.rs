@@ -117,10 +117,93 @@ pub struct SimResult {
     pub topologies: usize,
     pub warnings: Vec<String>,
     pub transient: Option<Transient>,
+    /// The solution as a start for a nearby solve (not serialized).
+    #[serde(skip)]
+    pub warm_start: Option<WarmStart>,
 }
 
 /// Indexes of the signals with a role (the netlist builder's roles).
 pub type RoleIndex = build::Roles;
+
+/// What a solved periodic steady state leaves for the next, nearby solve
+/// (a sweep's next point): the state and switch states at `t = 0`, the
+/// constant-power load's parameter and the bus mean it was solved at.  A
+/// solve started from it skips the warm-up periods and most Newton
+/// iterations; it is used only when the next circuit has the same netlist
+/// shape (same elements, nodes and faults), and if Newton fails from it the
+/// solve starts again cold.  The answer is the same periodic solution (to
+/// the Newton tolerance, 1e-10 of each state's scale); with a constant-power
+/// load its linearisation slope is built about the previous point's bus
+/// mean instead of the cold guess, which moves figures by less than the
+/// rebuild rule allows (see `cpl_rebuild`; measured in `tests/sweep_warm.rs`).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct WarmStart {
+    pub x0: Vec<f64>,
+    pub on0: Vec<bool>,
+    /// The circuit's parameter entry at the solution.
+    pub param: f64,
+    /// Mean bus voltage at the solution, V.
+    pub v_dc_mean_v: f64,
+    /// Solved with the constant-power load as a current constant in the period.
+    pub cpl_constant_current: bool,
+    shape: Vec<(u8, usize, usize, bool)>,
+}
+
+/// The netlist's shape: what must match for a warm start to apply.
+fn netlist_shape(c: &circuit::Circuit) -> Vec<(u8, usize, usize, bool)> {
+    let mut v = vec![(255u8, c.n_nodes, c.osc_omega.len(), false)];
+    v.extend(c.elements.iter().map(|e| match e {
+        Element::Conductance { a, b, .. } => (0u8, *a, *b, false),
+        Element::Inductor { a, b, .. } => (1, *a, *b, false),
+        Element::Capacitor { a, b, .. } => (2, *a, *b, false),
+        Element::VoltageSource { a, b, .. } => (3, *a, *b, false),
+        Element::CurrentSource { a, b, scaled, .. } => (4, *a, *b, *scaled),
+        Element::Switch { a, b, open, .. } => (5, *a, *b, *open),
+    }));
+    v
+}
+
+impl WarmStart {
+    /// The linear extrapolation `self + k (self - older)` of the state, the
+    /// parameter and the bus mean (a sweep's predictor: `k` is the next
+    /// step over the last one); `self` unchanged when the two do not match.
+    /// A first-order predictor leaves a residual of the order of the square
+    /// of the step, which the Newton solve then removes.
+    pub fn extrapolate(&self, older: &WarmStart, k: f64) -> WarmStart {
+        if !(k.is_finite() && (0.0..=2.0).contains(&k))
+            || older.shape != self.shape
+            || older.cpl_constant_current != self.cpl_constant_current
+            || older.x0.len() != self.x0.len()
+        {
+            return self.clone();
+        }
+        let lin = |a: f64, b: f64| a + k * (a - b);
+        let v = lin(self.v_dc_mean_v, older.v_dc_mean_v);
+        WarmStart {
+            x0: self
+                .x0
+                .iter()
+                .zip(&older.x0)
+                .map(|(a, b)| lin(*a, *b))
+                .collect(),
+            on0: self.on0.clone(),
+            param: lin(self.param, older.param),
+            v_dc_mean_v: if v > 0.0 { v } else { self.v_dc_mean_v },
+            cpl_constant_current: self.cpl_constant_current,
+            shape: self.shape.clone(),
+        }
+    }
+
+    /// Whether this warm start applies to `c` solved in the given mode.
+    fn fits(&self, c: &circuit::Circuit, cpl_constant_current: bool) -> bool {
+        self.cpl_constant_current == cpl_constant_current
+            && self.x0.len() == c.n_x()
+            && self.on0.len() == c.switches.len()
+            && self.x0.iter().all(|x| x.is_finite())
+            && self.v_dc_mean_v.is_finite()
+            && self.shape == netlist_shape(c)
+    }
+}
 
 /// The outputs of one topology as forms over the state `z`: every probe as a
 /// row of `c`, and the instantaneous dissipation as `z^T q z`, with
@@ -240,6 +323,28 @@ fn steady(
     s: &Scenario,
     cfg: &SimConfig,
     period: f64,
+    warm: Option<&WarmStart>,
+) -> Result<(Engine, solver::SteadyState, (usize, usize)), SolveError> {
+    let warm = warm.filter(|w| w.fits(&built.circuit, built.cpl_constant_current));
+    if let Some(w) = warm {
+        // From a nearby solution: no warm-up, Newton from its state.  If that
+        // fails the solve starts again cold.
+        let cold = built.circuit.clone();
+        match steady_from(built, s, cfg, period, Some(w)) {
+            Ok(r) => return Ok(r),
+            Err(_) => built.circuit = cold,
+        }
+    }
+    steady_from(built, s, cfg, period, None)
+}
+
+/// `steady` from a warm start (already checked to fit) or cold.
+fn steady_from(
+    built: &mut Built,
+    s: &Scenario,
+    cfg: &SimConfig,
+    period: f64,
+    warm: Option<&WarmStart>,
 ) -> Result<(Engine, solver::SteadyState, (usize, usize)), SolveError> {
     let mut eng = Engine::new(
         built.circuit.clone(),
@@ -255,9 +360,32 @@ fn steady(
         _ => None,
     };
     let Some((eg, p_w)) = cpl else {
-        let st = solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 2, 40, None)?;
+        let st = match warm {
+            Some(w) => {
+                solver::solve_periodic_from(&mut eng, &w.x0, &w.on0, &built.x_scale, 40, None)?
+            }
+            None => solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 2, 40, None)?,
+        };
         return Ok((eng, st, (0, 0)));
     };
+    let cc = built.cpl_constant_current;
+    if let Some(w) = warm {
+        // The slope and the parameter about the previous bus mean, for this
+        // point's power.
+        let v = w.v_dc_mean_v;
+        if v > 0.0 {
+            let mut c = built.circuit.clone();
+            if !cc {
+                if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
+                    *g_s = -p_w / (v * v);
+                }
+            }
+            c.param = if cc { p_w / v } else { 2.0 * p_w / v };
+            built.circuit = c.clone();
+            let (it, vt) = (eng.i_tol_a, eng.v_tol_v);
+            eng = Engine::new(c, period, cfg.grid_points, it, vt);
+        }
+    }
     // The load is i = a - g v with g = P / Vg^2 fixed at the point Vg the
     // engine was built for, and a = P / V0 + g V0 (its parameter entry, solved
     // with the state: see `solver::ParamRule`), V0 the mean bus voltage.  When
@@ -265,11 +393,12 @@ fn steady(
     // g = P / V0^2 and solved again from there.  As a current constant within
     // the period (`cpl_constant_current`) the parameter is P / V0.
     let mut retired = (0usize, 0usize);
-    let cc = built.cpl_constant_current;
     let v_dc_probe = built.probes[built.roles.v_dc].clone();
     let circuit_for_rows = built.circuit.clone();
     let row = |t: &Topology| probe_row(&v_dc_probe, t, &circuit_for_rows);
     let mut st: Option<solver::SteadyState> = None;
+    // Where each solve starts: the warm start, or the previous solve (after a rebuild).
+    let mut from: Option<(Vec<f64>, Vec<bool>)> = warm.map(|w| (w.x0.clone(), w.on0.clone()));
     for _ in 0..20 {
         let v_g = match eng.circuit.elements[eg] {
             Element::Conductance { g_s, .. } if g_s < 0.0 => (p_w / -g_s).sqrt(),
@@ -289,17 +418,13 @@ fn steady(
             not_positive: COLLAPSE,
             restart: &|v: f64, ripple: f64| !cc && cpl_rebuild(v, v_g, ripple),
         };
-        let next = match &st {
+        let next = match &from {
             None => solver::solve_periodic(&mut eng, &x_guess, &built.x_scale, 2, 40, Some(&rule)),
-            Some(prev) => solver::solve_periodic_from(
-                &mut eng,
-                &prev.x0,
-                &prev.on0,
-                &built.x_scale,
-                40,
-                Some(&rule),
-            ),
+            Some((x0, on0)) => {
+                solver::solve_periodic_from(&mut eng, x0, on0, &built.x_scale, 40, Some(&rule))
+            }
         }?;
+        from = Some((next.x0.clone(), next.on0.clone()));
         let mean_v = next.mean.unwrap_or(f64::NAN);
         if mean_v.is_nan() || mean_v <= 0.0 {
             return Err(err(COLLAPSE.0, COLLAPSE.1));
@@ -375,7 +500,17 @@ fn explain_failure(s: &Scenario, d: &Derived, e: SolveError) -> SolveError {
 /// when no periodic solution exists with it, the load is solved again as a
 /// current constant within the period (P / V0 on average), with a warning.
 pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
-    let first = simulate_with(s, d, false);
+    simulate_from(s, d, None)
+}
+
+/// [`simulate`] started from a nearby solution (a sweep's previous point,
+/// `SimResult::warm_start`) when it fits the circuit; see [`WarmStart`].
+pub fn simulate_from(
+    s: &Scenario,
+    d: &Derived,
+    warm: Option<&WarmStart>,
+) -> Result<SimResult, SolveError> {
+    let first = simulate_with(s, d, false, warm);
     if !matches!(s.dc.load, DcLoad::ConstantPower { .. }) {
         return first;
     }
@@ -390,7 +525,7 @@ pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
     if !suspect {
         return first;
     }
-    match simulate_with(s, d, true) {
+    match simulate_with(s, d, true, warm) {
         Ok(mut r) => {
             r.warnings.push(
                 "the constant-power load was solved as a current constant within the period (P / V_avg): the bus ripple is too large for its linearised model".into(),
@@ -505,6 +640,7 @@ fn simulate_with(
     s: &Scenario,
     d: &Derived,
     cpl_constant_current: bool,
+    warm: Option<&WarmStart>,
 ) -> Result<SimResult, SolveError> {
     let cfg = SimConfig::from_scenario(s);
     let period = 1.0 / s.supply.f_hz;
@@ -519,7 +655,7 @@ fn simulate_with(
         }
     }
     let (mut eng, mut st, stats) =
-        steady(&mut built, s, &cfg, period).map_err(|e| explain_failure(s, d, e))?;
+        steady(&mut built, s, &cfg, period, warm).map_err(|e| explain_failure(s, d, e))?;
     // The recording period: the converging Newton period itself when it was
     // marched on the fine grid, else one more period from the solution.
     let record = RunSpec {
@@ -827,6 +963,14 @@ fn simulate_with(
         None
     };
     let roles = r.clone();
+    let warm_start = Some(WarmStart {
+        x0: st.x0.clone(),
+        on0: st.on0.clone(),
+        param: eng.circuit.param,
+        v_dc_mean_v: signals[r.v_dc].mean,
+        cpl_constant_current: built.cpl_constant_current,
+        shape: netlist_shape(&built.circuit),
+    });
     Ok(SimResult {
         period_s: period,
         t_s: grid_t,
@@ -844,6 +988,7 @@ fn simulate_with(
         topologies: eng.cache_len(),
         warnings,
         transient,
+        warm_start,
     })
 }
 

@@ -1237,7 +1237,7 @@ pub fn solve_periodic_from(
             let xt: Vec<f64> = x0.iter().zip(&delta).map(|(x, d)| x + lambda * d).collect();
             let on_start = run.on_end.clone();
             let likely_last =
-                lambda == 1.0 && rn < 1e-6 && (rule.is_none() || dp.abs() < 1e-4 * p_now.abs());
+                lambda == 1.0 && rn < 1e-5 && (rule.is_none() || dp.abs() < 1e-4 * p_now.abs());
             let spec = if likely_last { &final_spec } else { &with_sens };
             if let Ok(rt) = eng.run(&xt, &on_start, spec) {
                 let rest: Vec<f64> = rt.x_end.iter().zip(&xt).map(|(a, b)| a - b).collect();
