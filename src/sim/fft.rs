@@ -151,11 +151,48 @@ fn pass(x: &mut [C], p: usize, m: usize, tw: &[C]) {
     }
 }
 
+thread_local! {
+    /// The unit-circle tables made so far on this thread (a few lengths).
+    static CIRCLES: std::cell::RefCell<Vec<std::rc::Rc<Vec<C>>>> =
+        const { std::cell::RefCell::new(Vec::new()) };
+}
+
+/// `W_n^e = e^(-2 pi i e / n)`, e = 0..n, as (cos, sin) pairs: the FFT's
+/// twiddle factors, and the oscillator values on the grid (`solver::Engine`).
+/// Made once per length and thread (about a thousand sine-cosine pairs,
+/// which per analysis cost about 2 % of it) and shared.
+pub fn unit_circle(n: usize) -> std::rc::Rc<Vec<C>> {
+    let make = || -> std::rc::Rc<Vec<C>> {
+        std::rc::Rc::new(
+            (0..n)
+                .map(|e| {
+                    let (s, c) = (-2.0 * PI * e as f64 / n as f64).sin_cos();
+                    (c, s)
+                })
+                .collect(),
+        )
+    };
+    CIRCLES.with(|cell| match cell.try_borrow_mut() {
+        Ok(mut v) => {
+            if let Some(t) = v.iter().find(|t| t.len() == n) {
+                return t.clone();
+            }
+            let t = make();
+            if v.len() >= 4 {
+                v.remove(0);
+            }
+            v.push(t.clone());
+            t
+        }
+        Err(_) => make(),
+    })
+}
+
 /// A transform length with its twiddle factors, reused over many sequences.
 pub struct Plan {
     n: usize,
     smooth: bool,
-    tw: Vec<C>,
+    tw: std::rc::Rc<Vec<C>>,
     scratch: Vec<C>,
     z: Vec<C>,
     /// Bit-reversal permutation, for a power-of-two length (the iterative
@@ -171,14 +208,9 @@ impl Plan {
     pub fn new(n: usize) -> Plan {
         let smooth = is_smooth(n);
         let tw = if smooth {
-            (0..n)
-                .map(|e| {
-                    let (s, c) = (-2.0 * PI * e as f64 / n as f64).sin_cos();
-                    (c, s)
-                })
-                .collect()
+            unit_circle(n)
         } else {
-            Vec::new()
+            std::rc::Rc::new(Vec::new())
         };
         let rev = if n.is_power_of_two() && n > 1 {
             let bits = n.trailing_zeros();
