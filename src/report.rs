@@ -212,7 +212,12 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
             if matches!(s.dc.load, crate::scenario::DcLoad::ConstantPower { .. }) {
                 let _ = writeln!(
                     o,
-                    "  note: the constant-power load is its equivalent resistance at the steady bus voltage\n        throughout; a drive that holds its inverter off until the bus is charged charges sooner"
+                    "{}",
+                    if s.dc.precharge_r_ohm > 0.0 && !s.dc.precharge_stuck {
+                        "  note: the drive's inverter is held off (no load) until the precharge bypass closes, then\n        draws its power as its equivalent resistance at the steady bus voltage"
+                    } else {
+                        "  note: the constant-power load is its equivalent resistance at the steady bus voltage\n        throughout (no precharge circuit)"
+                    }
                 );
             }
         }

@@ -1002,27 +1002,45 @@ fn power_up(
     v_mean: f64,
     warnings: &mut Vec<String>,
 ) -> Result<Transient, SolveError> {
-    // A constant-power load is its equivalent resistance V0^2 / P at the
-    // steady mean bus voltage here: a drive's inverter draws its power once
-    // the bus is up, and the steady state's linearisation about V0 is a
-    // negative resistance that, on a bus still charging through a precharge
-    // resistor, made the transient run away (1e22 A).
+    // A constant-power load is a drive's inverter.  With a precharge circuit
+    // the drive holds it off (no load) until the bypass closes, then draws
+    // its power: from the first grid point after the closing (at most one
+    // step, 1/720 of a cycle, late) it is its equivalent resistance V0^2 / P
+    // at the steady mean.  (Not the steady state's linearisation about V0:
+    // a negative resistance that, on a bus still charging, made the
+    // transient run away, 1e22 A.)  Without a precharge circuit the load is
+    // that resistance from the start.
     let mut circuit = built.circuit.clone();
+    let mut circuit_off = None;
     if let (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) = (built.cpl, &s.dc.load) {
         if v_mean > 0.0 {
+            if built.has_contactor {
+                let mut c = circuit.clone();
+                if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
+                    *g_s = 0.0;
+                }
+                c.param = 0.0;
+                circuit_off = Some(c);
+            }
             if let Element::Conductance { g_s, .. } = &mut circuit.elements[eg] {
                 *g_s = p_w / (v_mean * v_mean);
             }
             circuit.param = 0.0;
         }
     }
-    let mut eng = Engine::new(
-        circuit,
-        period,
-        cfg.grid_points.min(720),
-        TOL_REL * built.i_base_a,
-        TOL_REL * built.v_base_v,
-    );
+    let grid = cfg.grid_points.min(720);
+    let new_engine = |c: circuit::Circuit| {
+        Engine::new(
+            c,
+            period,
+            grid,
+            TOL_REL * built.i_base_a,
+            TOL_REL * built.v_base_v,
+        )
+    };
+    let mut eng = new_engine(circuit);
+    // The engine while the inverter is held off (until the bypass closes).
+    let mut eng_off = circuit_off.map(new_engine);
     let nx = eng.circuit.n_x();
     let on0 = vec![false; eng.circuit.switches.len()];
     let rule = if built.has_contactor {
@@ -1049,16 +1067,12 @@ fn power_up(
     // 2000-cycle power-up held every step's state at once before).
     const CHUNK_CYCLES: usize = 25;
     let n_cycles = cfg.transient_cycles as usize;
-    let r = &built.roles;
-    let mut t_s = Vec::new();
-    let (mut v_dc, mut ia, mut ib, mut ic) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-    let mut peak: f64 = 0.0;
-    let mut charge = None;
     let mut bypass_at_s = None;
-    // Rows of the bus voltage and the three line currents, per topology.
-    let mut rows: solver::KeyMap<[Vec<f64>; 4]> = solver::KeyMap::default();
-    let mut gs = Vec::new();
     let h_step = eng.h_s;
+    // Rows of the bus voltage and the three line currents, per topology of
+    // each engine (0: the load on, 1: the inverter held off).
+    let mut rows_by: [solver::KeyMap<[Vec<f64>; 4]>; 2] = Default::default();
+    let mut trace = Trace::default();
     let (mut x, mut on) = (vec![0.0; nx], on0);
     let mut c0 = 0;
     while c0 < n_cycles {
@@ -1070,84 +1084,86 @@ fn power_up(
                 c1 += 1;
             }
         }
-        let run = eng.run(
-            &x,
-            &on,
-            &RunSpec {
-                t0_s: period * c0 as f64,
-                t1_s: period * c1 as f64,
-                record: true,
-                sensitivity: false,
-                contactor_close: if bypass_at_s.is_none() { rule } else { None },
-                coarse: false,
-            },
-        )?;
-        for key in run
-            .knots
-            .iter()
-            .map(|k| k.1)
-            .chain(run.pieces.iter().map(|p| p.key))
-        {
-            if !rows.contains_key(&key) {
-                let td = eng.topo_key(key)?;
-                let row = |i: usize| probe_row(&built.probes[i], &td.topo, &built.circuit);
-                rows.insert(
-                    key,
-                    [
-                        row(r.v_dc),
-                        row(r.line_i[0]),
-                        row(r.line_i[1]),
-                        row(r.line_i[2]),
-                    ],
-                );
-            }
-        }
-        // The first knot of a later chunk is the last of the one before.
+        let (t0, t1) = (period * c0 as f64, period * c1 as f64);
+        let spec = |t0_s: f64, t1_s: f64, close: Option<ContactorRule>| RunSpec {
+            t0_s,
+            t1_s,
+            record: true,
+            sensitivity: false,
+            contactor_close: close,
+            coarse: false,
+        };
+        let close = if bypass_at_s.is_none() { rule } else { None };
         let skip = usize::from(c0 > 0);
-        for k in run.knots.iter().skip(skip) {
-            let rw = &rows[&k.1];
-            let v = dot(&rw[0], &k.2);
-            let i = [1, 2, 3].map(|j| dot(&rw[j], &k.2));
-            t_s.push(k.0);
-            v_dc.push(v);
-            ia.push(i[0]);
-            ib.push(i[1]);
-            ic.push(i[2]);
-            peak = peak.max(i[0].abs()).max(i[1].abs()).max(i[2].abs());
-            if charge.is_none() && v >= 0.9 * v_mean && v_mean > 0.0 {
-                charge = Some(k.0);
-            }
-        }
-        // Peaks between grid points: the middle of each whole step, and the
-        // Gauss nodes of pieces cut by a switching instant.
-        for p in &run.pieces {
-            let rw = &rows[&p.key];
-            if (p.dt_s - h_step).abs() < 1e-9 * h_step {
-                let td = eng.topo_key(p.key)?;
-                let z_mid = td.table[1].mul_vec(&p.z);
-                for row in &rw[1..] {
-                    peak = peak.max(dot(row, &z_mid).abs());
-                }
-                continue;
-            }
-            eng.gauss_states_into(p, &mut gs)?;
-            for (_, _, z) in &gs {
-                for row in &rw[1..] {
-                    peak = peak.max(dot(row, z).abs());
-                }
-            }
-        }
+        let held_off = bypass_at_s.is_none() && eng_off.is_some();
+        let (engine, which) = match eng_off.as_mut() {
+            Some(e) if held_off => (e, 1),
+            _ => (&mut eng, 0),
+        };
+        let mut run = engine.run(&x, &on, &spec(t0, t1, close))?;
+        let closed = run
+            .events
+            .iter()
+            .find(|e| built.device_names.get(e.switch).is_none())
+            .map(|e| e.t_s);
         if bypass_at_s.is_none() {
-            bypass_at_s = run
-                .events
-                .iter()
-                .find(|e| built.device_names.get(e.switch).is_none())
-                .map(|e| e.t_s);
+            bypass_at_s = closed;
+        }
+        match (held_off, closed) {
+            (true, Some(tb)) => {
+                // The bypass closed in this chunk with the inverter held off:
+                // march again to the first grid point after the closing, then
+                // on with the load.
+                let tg = ((((tb - t0) / h_step) - 1e-9).ceil().max(0.0) * h_step + t0).min(t1);
+                let off = eng_off
+                    .as_mut()
+                    .ok_or_else(|| err("internal", "held-off engine"))?;
+                let run_a = off.run(&x, &on, &spec(t0, tg, close))?;
+                absorb(
+                    off,
+                    &run_a,
+                    &mut rows_by[1],
+                    skip,
+                    built,
+                    v_mean,
+                    &mut trace,
+                )?;
+                run = run_a;
+                if tg < t1 - 1e-9 * h_step {
+                    let run_b = eng.run(&run.x_end, &run.on_end, &spec(tg, t1, None))?;
+                    absorb(
+                        &mut eng,
+                        &run_b,
+                        &mut rows_by[0],
+                        1,
+                        built,
+                        v_mean,
+                        &mut trace,
+                    )?;
+                    run = run_b;
+                }
+            }
+            _ => absorb(
+                engine,
+                &run,
+                &mut rows_by[which],
+                skip,
+                built,
+                v_mean,
+                &mut trace,
+            )?,
         }
         x = run.x_end;
         on = run.on_end;
         c0 = c1;
     }
+    let Trace {
+        t_s,
+        v_dc,
+        i_abc: [ia, ib, ic],
+        peak,
+        charge,
+    } = trace;
     if charge.is_none() {
         warnings.push(
             "the bus did not reach 90 % of its steady value within the power-up window".into(),
@@ -1163,4 +1179,85 @@ fn power_up(
         charge_time_s: charge,
         bypass_at_s,
     })
+}
+
+/// The power-up's samples so far (see `power_up`).
+#[derive(Default)]
+struct Trace {
+    t_s: Vec<f64>,
+    v_dc: Vec<f64>,
+    i_abc: [Vec<f64>; 3],
+    peak: f64,
+    charge: Option<f64>,
+}
+
+/// Add a recorded run of the power-up to `trace`: the bus voltage and line
+/// currents at its grid knots (the first `skip` left out: a chunk's first
+/// knot is the last of the one before), the line-current peak over the
+/// knots, the step midpoints and the Gauss nodes of cut pieces, and the
+/// charge time (the first knot at 90 % of the steady mean `v_mean`).
+fn absorb(
+    eng: &mut Engine,
+    run: &solver::RunOut,
+    rows: &mut solver::KeyMap<[Vec<f64>; 4]>,
+    skip: usize,
+    built: &Built,
+    v_mean: f64,
+    trace: &mut Trace,
+) -> Result<(), SolveError> {
+    let r = &built.roles;
+    for key in run
+        .knots
+        .iter()
+        .map(|k| k.1)
+        .chain(run.pieces.iter().map(|p| p.key))
+    {
+        if !rows.contains_key(&key) {
+            let td = eng.topo_key(key)?;
+            let row = |i: usize| probe_row(&built.probes[i], &td.topo, &eng.circuit);
+            rows.insert(
+                key,
+                [
+                    row(r.v_dc),
+                    row(r.line_i[0]),
+                    row(r.line_i[1]),
+                    row(r.line_i[2]),
+                ],
+            );
+        }
+    }
+    for k in run.knots.iter().skip(skip) {
+        let rw = &rows[&k.1];
+        let v = dot(&rw[0], &k.2);
+        trace.t_s.push(k.0);
+        trace.v_dc.push(v);
+        for (j, series) in trace.i_abc.iter_mut().enumerate() {
+            let i = dot(&rw[j + 1], &k.2);
+            series.push(i);
+            trace.peak = trace.peak.max(i.abs());
+        }
+        if trace.charge.is_none() && v >= 0.9 * v_mean && v_mean > 0.0 {
+            trace.charge = Some(k.0);
+        }
+    }
+    let h_step = eng.h_s;
+    let mut gs = Vec::new();
+    for p in &run.pieces {
+        let rw = &rows[&p.key];
+        if (p.dt_s - h_step).abs() < 1e-9 * h_step {
+            let td = eng.topo_key(p.key)?;
+            let z_mid = td.table[1].mul_vec(&p.z);
+            for row in &rw[1..] {
+                trace.peak = trace.peak.max(dot(row, &z_mid).abs());
+            }
+            continue;
+        }
+        eng.gauss_states_into(p, &mut gs)?;
+        for (_, _, z) in &gs {
+            for row in &rw[1..] {
+                trace.peak = trace.peak.max(dot(row, z).abs());
+            }
+        }
+    }
+    Ok(())
 }

@@ -542,14 +542,14 @@ for (const b of BROWSERS) {
       assert.ok(close(sw[4][1] / sw[0][1], 520 / 440, 0.03), `ratio ${sw[4][1] / sw[0][1]}`);
       await shotOf("#out-plots", "plot-sweep");
       // a long sweep can be cancelled
-      await page.$eval("#sweep-n", (e) => (e.value = "200"));
+      await page.$eval("#sweep-n", (e) => (e.value = "2000"));
       await page.click("#sweep-run");
       await page.waitForFunction(() => document.querySelector("#sweep-progress").value >= 1);
       await page.click("#sweep-cancel");
       await page.waitForSelector('#panel-sweep[data-state="cancelled"]', { timeout: 30000 });
       const m = await page.$eval("#sweep-msg", (e) => e.textContent);
-      const done = Number(/after (\d+) of 200/.exec(m)[1]);
-      assert.ok(done < 200, m);
+      const done = Number(/after (\d+) of 2000/.exec(m)[1]);
+      assert.ok(done < 2000, m);
       await page.click('[data-tab="waves"]');
     });
 
