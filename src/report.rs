@@ -213,7 +213,7 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
                 let _ = writeln!(
                     o,
                     "{}",
-                    if s.dc.precharge_r_ohm > 0.0 && !s.dc.precharge_stuck {
+                    if t.inverter_held_off {
                         "  note: the drive's inverter is held off (no load) until the precharge bypass closes, then\n        draws its power as its equivalent resistance at the steady bus voltage"
                     } else {
                         "  note: the constant-power load is its equivalent resistance at the steady bus voltage\n        throughout (no precharge circuit)"

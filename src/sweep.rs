@@ -277,11 +277,17 @@ impl Sweeper {
             .and_then(|sc| analyze_from(&sc, warm.as_ref()).map_err(|e| e.to_string()));
         match analysed {
             Ok(a) => {
-                if let Some(w) = a.sim.as_ref().and_then(|r| r.warm_start.clone()) {
-                    if self.solved.len() == 2 {
-                        self.solved.remove(0);
+                match a.sim.as_ref().and_then(|r| r.warm_start.clone()) {
+                    Some(w) => {
+                        if self.solved.len() == 2 {
+                            self.solved.remove(0);
+                        }
+                        self.solved.push((x, w));
                     }
-                    self.solved.push((x, w));
+                    // A solved point that leaves no warm start: the next
+                    // point starts cold (no prediction from older points).
+                    None if a.sim.is_some() => self.solved.clear(),
+                    None => {}
                 }
                 let summary = summarize(&a);
                 let error = if summary.is_none() {

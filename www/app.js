@@ -1025,7 +1025,6 @@
   const plots = {}; // tab id -> plot
   let analysis = null;
   let analysedLoadKind = null; // dc.load.kind of the scenario behind `analysis`
-  let analysedHeldOff = false; // that scenario has a precharge bypass (the inverter waits for it)
   let waves = null; // {t, sig: [Float64Array]}
   let activeTab = "waves";
 
@@ -1239,7 +1238,7 @@
         el(
           "p",
           { class: "note", id: "transient-cpl-note" },
-          analysedHeldOff
+          analysis.sim.transient.inverter_held_off
             ? "The drive's inverter is held off (no load) until the precharge bypass closes; from then on it draws its power, shown as its equivalent resistance at the steady bus voltage."
             : "The constant-power load is shown as its equivalent resistance at the steady bus voltage throughout the power-up (no precharge circuit: the load is on from the start)."
         )
@@ -1486,7 +1485,6 @@
     $("#engine-failure").hidden = true;
     analysis = a;
     analysedLoadKind = scenario.dc && scenario.dc.load ? scenario.dc.load.kind : null;
-    analysedHeldOff = !!(scenario.dc && scenario.dc.precharge_r_ohm > 0 && !scenario.dc.precharge_stuck);
     try {
       const flat = wasm_bindgen.waveforms();
       const n = a.sim ? flat.length / (a.sim.signals.length + 1) : 0;

@@ -89,6 +89,10 @@ pub struct Transient {
     pub charge_time_s: Option<f64>,
     /// When the precharge bypass closed, s.
     pub bypass_at_s: Option<f64>,
+    /// A constant-power load (a drive's inverter) was held off until the
+    /// bypass closed; otherwise any load was on from the start.
+    #[serde(default)]
+    pub inverter_held_off: bool,
 }
 
 /// Simulation results.
@@ -131,7 +135,8 @@ pub type RoleIndex = build::Roles;
 /// solve started from it skips the warm-up periods and most Newton
 /// iterations; it is used only when the next circuit has the same netlist
 /// shape (same elements, nodes and faults), and if Newton fails from it the
-/// solve starts again cold.  It is only made for a diode bridge, and with a
+/// solve starts again cold.  It is only made (and a warm-started solution
+/// only kept: else the point is solved again cold) for a diode bridge, and with a
 /// constant-power load only when the bus ripple is below
 /// `WARM_CPL_RIPPLE_MAX` of its mean: a thyristor bridge (its gate windows)
 /// and a constant-power load on a rippling bus can have more than one
@@ -359,6 +364,26 @@ fn steady_from(
     period: f64,
     warm: Option<&WarmStart>,
 ) -> Result<(Engine, solver::SteadyState, (usize, usize)), SolveError> {
+    // The precharge bypass is closed in steady state.
+    let x_guess = built.x_guess.clone();
+    let cpl = match (built.cpl, &s.dc.load) {
+        (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) => Some((eg, *p_w)),
+        _ => None,
+    };
+    let cc = built.cpl_constant_current;
+    if let (Some(w), Some((eg, p_w))) = (warm, cpl) {
+        // The slope and the parameter about the previous bus mean, for this
+        // point's power.
+        let v = w.v_dc_mean_v;
+        if v > 0.0 {
+            if !cc {
+                if let Element::Conductance { g_s, .. } = &mut built.circuit.elements[eg] {
+                    *g_s = -p_w / (v * v);
+                }
+            }
+            built.circuit.param = if cc { p_w / v } else { 2.0 * p_w / v };
+        }
+    }
     let mut eng = Engine::new(
         built.circuit.clone(),
         period,
@@ -366,12 +391,6 @@ fn steady_from(
         TOL_REL * built.i_base_a,
         TOL_REL * built.v_base_v,
     );
-    // The precharge bypass is closed in steady state.
-    let x_guess = built.x_guess.clone();
-    let cpl = match (built.cpl, &s.dc.load) {
-        (Some((_ei, eg)), DcLoad::ConstantPower { p_w }) => Some((eg, *p_w)),
-        _ => None,
-    };
     let Some((eg, p_w)) = cpl else {
         let st = match warm {
             Some(w) => {
@@ -381,24 +400,6 @@ fn steady_from(
         };
         return Ok((eng, st, (0, 0)));
     };
-    let cc = built.cpl_constant_current;
-    if let Some(w) = warm {
-        // The slope and the parameter about the previous bus mean, for this
-        // point's power.
-        let v = w.v_dc_mean_v;
-        if v > 0.0 {
-            let mut c = built.circuit.clone();
-            if !cc {
-                if let Element::Conductance { g_s, .. } = &mut c.elements[eg] {
-                    *g_s = -p_w / (v * v);
-                }
-            }
-            c.param = if cc { p_w / v } else { 2.0 * p_w / v };
-            built.circuit = c.clone();
-            let (it, vt) = (eng.i_tol_a, eng.v_tol_v);
-            eng = Engine::new(c, period, cfg.grid_points, it, vt);
-        }
-    }
     // The load is i = a - g v with g = P / Vg^2 fixed at the point Vg the
     // engine was built for, and a = P / V0 + g V0 (its parameter entry, solved
     // with the state: see `solver::ParamRule`), V0 the mean bus voltage.  When
@@ -667,6 +668,7 @@ fn simulate_with(
             built.cpl_constant_current = true;
         }
     }
+    let warm_fits = warm.is_some_and(|w| w.fits(&built.circuit, built.cpl_constant_current));
     let (mut eng, mut st, stats) =
         steady(&mut built, s, &cfg, period, warm).map_err(|e| explain_failure(s, d, e))?;
     // The recording period: the converging Newton period itself when it was
@@ -963,6 +965,17 @@ fn simulate_with(
             );
         }
     }
+    // A warm start is made, and a warm-started solution kept, only where the
+    // periodic solution is unique enough that warm and cold land on the same
+    // one (see `WarmStart`); a warm-started point outside that region is
+    // solved again cold.
+    let v_bus = &signals[r.v_dc];
+    let cpl = matches!(s.dc.load, DcLoad::ConstantPower { .. });
+    let warm_ok = !s.bridge.kind.is_controlled()
+        && (!cpl || (v_bus.max - v_bus.min) < WARM_CPL_RIPPLE_MAX * v_bus.mean.abs());
+    if warm_fits && !warm_ok {
+        return simulate_with(s, d, cpl_constant_current, None);
+    }
     let transient = if cfg.transient_cycles > 0 {
         Some(power_up(
             &built,
@@ -976,12 +989,6 @@ fn simulate_with(
         None
     };
     let roles = r.clone();
-    // Only where the periodic solution is known to be unique enough that a
-    // warm start lands where a cold one does (see `WarmStart`).
-    let v_bus = &signals[r.v_dc];
-    let cpl = matches!(s.dc.load, DcLoad::ConstantPower { .. });
-    let warm_ok = !s.bridge.kind.is_controlled()
-        && (!cpl || (v_bus.max - v_bus.min) < WARM_CPL_RIPPLE_MAX * v_bus.mean.abs());
     let warm_start = warm_ok.then(|| WarmStart {
         x0: st.x0.clone(),
         on0: st.on0.clone(),
@@ -1197,6 +1204,7 @@ fn power_up(
         inrush_peak_a: peak,
         charge_time_s: charge,
         bypass_at_s,
+        inverter_held_off: eng_off.is_some(),
     })
 }
 
