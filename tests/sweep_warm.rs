@@ -158,6 +158,43 @@ fn a_warm_start_marches_fewer_periods_and_gives_the_same_solution() {
     );
 }
 
+/// A warm start carries its engine's topologies (`solver::TopoShare`).  A
+/// nearby point of a constant-power sweep keeps the previous slope
+/// (`sim::cpl_keep`), so its circuit matrices are the same and it reuses
+/// them: it builds none, and its answer is bit for bit the answer without
+/// them (each topology is a function of the matrices and the step alone).
+/// A share from other matrices (another bus capacitance) is not taken.
+#[test]
+fn a_warm_start_reuses_topologies_only_of_the_same_matrices() {
+    let s = scenario("drive_reactor_full");
+    let s1 = with_value(&s, "dc.load.p_w", 60000.0).unwrap();
+    let s2 = with_value(&s, "dc.load.p_w", 60050.0).unwrap();
+    let (d1, d2) = (derive(&s1).unwrap(), derive(&s2).unwrap());
+    let warm = simulate(&s1, &d1).unwrap().warm_start.expect("warm start");
+    assert!(warm.topos.is_some() && warm.cpl_g_s.is_some());
+    let mut bare = warm.clone();
+    bare.topos = None;
+    let shared = simulate_from(&s2, &d2, Some(&warm)).unwrap();
+    let unshared = simulate_from(&s2, &d2, Some(&bare)).unwrap();
+    assert_eq!(
+        shared.warm_start.as_ref().unwrap().cpl_g_s,
+        warm.cpl_g_s,
+        "a 0.08 % power step keeps the slope"
+    );
+    assert!(unshared.topologies_built > 0);
+    assert_eq!(shared.topologies_built, 0, "every topology reused");
+    assert_eq!(shared.signals, unshared.signals);
+    assert_eq!(shared.periods_marched, unshared.periods_marched);
+    // Another bus capacitance: same netlist shape, other matrices.
+    let s3 = with_value(&s2, "dc.cap_f", 0.0048).unwrap();
+    let d3 = derive(&s3).unwrap();
+    let other = simulate_from(&s3, &d3, Some(&warm)).unwrap();
+    let other_bare = simulate_from(&s3, &d3, Some(&bare)).unwrap();
+    assert!(other.topologies_built > 0);
+    assert_eq!(other.topologies_built, other_bare.topologies_built);
+    assert_eq!(other.signals, other_bare.signals);
+}
+
 #[test]
 fn a_warm_start_from_another_circuit_or_a_poor_one_gives_the_cold_answer() {
     // A resistor-loaded capacitor bus (a diode bridge: warm starts are made).

@@ -140,6 +140,19 @@ impl Circuit {
         }
     }
 
+    /// Whether `self` and `other` have the same topology matrices: every
+    /// field but the parameter entry's value (which sits in the state `z`,
+    /// not in a matrix) is equal, bit for bit.
+    pub fn same_matrices(&self, other: &Circuit) -> bool {
+        self.n_nodes == other.n_nodes
+            && self.elements == other.elements
+            && self.osc_omega == other.osc_omega
+            && self.g_off_s == other.g_off_s
+            && self.g_min_s == other.g_min_s
+            && self.switches == other.switches
+            && self.state_elems == other.state_elems
+    }
+
     /// Number of physical states (inductor currents and capacitor voltages).
     pub fn n_x(&self) -> usize {
         self.state_elems.len()

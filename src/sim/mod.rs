@@ -38,8 +38,23 @@ const CPL_REBUILD_MAX: f64 = 0.05;
 /// load (ripple 8 %) moved THD by 4e-4 relative and the capacitor life
 /// estimate by 1.4 %, which this rule does not allow.
 fn cpl_rebuild(v: f64, v_g: f64, ripple_pp: f64) -> bool {
+    cpl_off_by(v, v_g, ripple_pp, 1.0)
+}
+
+/// Whether a warm start keeps the previous point's slope, built for the bus
+/// voltage `v_g` (at this point's power), about the predicted mean `v` with
+/// the previous spread `ripple_pp`: only with half of `cpl_rebuild`'s
+/// margin left, so that the kept slope seldom needs a rebuild (which costs
+/// a second solve).  Keeping it keeps the circuit matrices, and with them
+/// the previous point's topologies (`solver::TopoShare`).
+fn cpl_keep(v: f64, v_g: f64, ripple_pp: f64) -> bool {
+    v_g.is_finite() && v_g > 0.0 && !cpl_off_by(v, v_g, ripple_pp, 0.5)
+}
+
+/// `cpl_rebuild` with its thresholds scaled by `k`.
+fn cpl_off_by(v: f64, v_g: f64, ripple_pp: f64, k: f64) -> bool {
     let off = (v - v_g).abs() / v_g;
-    off >= CPL_REBUILD_MAX || off * (ripple_pp / v.abs()).max(1e-3) >= CPL_SLOPE_TOL
+    off >= k * CPL_REBUILD_MAX || off * (ripple_pp / v.abs()).max(1e-3) >= k * CPL_SLOPE_TOL
 }
 
 /// One harmonic of a signal.
@@ -158,7 +173,32 @@ pub struct WarmStart {
     pub v_dc_mean_v: f64,
     /// Solved with the constant-power load as a current constant in the period.
     pub cpl_constant_current: bool,
+    /// The constant-power load's incremental conductance at the solution, S
+    /// (negative), and the bus spread (max - min) there, V: the next point
+    /// keeps this slope when the rebuild rule leaves a wide margin
+    /// (`cpl_keep`), so that its topologies can be reused.
+    pub cpl_g_s: Option<f64>,
+    pub v_dc_spread_v: f64,
+    /// The topologies of the solution's engine (reused by the next point's
+    /// engine when its matrices are the same; see `solver::TopoShare`).
+    pub topos: Option<SharedTopos>,
     shape: Vec<(u8, usize, usize, bool)>,
+}
+
+/// A shared [`solver::TopoShare`]; equal when it is the same share.
+#[derive(Clone)]
+pub struct SharedTopos(pub std::sync::Arc<solver::TopoShare>);
+
+impl PartialEq for SharedTopos {
+    fn eq(&self, other: &SharedTopos) -> bool {
+        std::sync::Arc::ptr_eq(&self.0, &other.0)
+    }
+}
+
+impl std::fmt::Debug for SharedTopos {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "SharedTopos({} topologies)", self.0.len())
+    }
 }
 
 /// The largest bus ripple (peak to peak, relative to the mean) for which a
@@ -208,6 +248,9 @@ impl WarmStart {
             param: lin(self.param, older.param),
             v_dc_mean_v: if v > 0.0 { v } else { self.v_dc_mean_v },
             cpl_constant_current: self.cpl_constant_current,
+            cpl_g_s: self.cpl_g_s,
+            v_dc_spread_v: self.v_dc_spread_v,
+            topos: self.topos.clone(),
             shape: self.shape.clone(),
         }
     }
@@ -374,14 +417,23 @@ fn steady_from(
     if let (Some(w), Some((eg, p_w))) = (warm, cpl) {
         // The slope and the parameter about the previous bus mean, for this
         // point's power.
+        // The previous point's slope is kept when it is still close enough
+        // for this point's power (`cpl_keep`).
         let v = w.v_dc_mean_v;
         if v > 0.0 {
-            if !cc {
+            if cc {
+                built.circuit.param = p_w / v;
+            } else {
+                let g = match w.cpl_g_s {
+                    Some(g) if g < 0.0 && cpl_keep(v, (p_w / -g).sqrt(), w.v_dc_spread_v) => g,
+                    _ => -p_w / (v * v),
+                };
                 if let Element::Conductance { g_s, .. } = &mut built.circuit.elements[eg] {
-                    *g_s = -p_w / (v * v);
+                    *g_s = g;
                 }
+                // a = P / V + (P / Vg^2) V with P / Vg^2 = -g.
+                built.circuit.param = p_w / v - g * v;
             }
-            built.circuit.param = if cc { p_w / v } else { 2.0 * p_w / v };
         }
     }
     let mut eng = Engine::new(
@@ -391,6 +443,9 @@ fn steady_from(
         TOL_REL * built.i_base_a,
         TOL_REL * built.v_base_v,
     );
+    if let Some(t) = warm.and_then(|w| w.topos.as_ref()) {
+        eng.adopt(&t.0);
+    }
     let Some((eg, p_w)) = cpl else {
         let st = match warm {
             Some(w) => {
@@ -995,6 +1050,14 @@ fn simulate_with(
         param: eng.circuit.param,
         v_dc_mean_v: signals[r.v_dc].mean,
         cpl_constant_current: built.cpl_constant_current,
+        cpl_g_s: built
+            .cpl
+            .and_then(|(_, eg)| match eng.circuit.elements[eg] {
+                Element::Conductance { g_s, .. } if !built.cpl_constant_current => Some(g_s),
+                _ => None,
+            }),
+        v_dc_spread_v: v_bus.max - v_bus.min,
+        topos: Some(SharedTopos(std::sync::Arc::new(eng.share()))),
         shape: netlist_shape(&built.circuit),
     });
     Ok(SimResult {

@@ -22,6 +22,7 @@ use super::circuit::{Circuit, Element, SwitchKind, Topology};
 use super::linalg::{Lu, Mat};
 use std::collections::HashMap;
 use std::rc::Rc;
+use std::sync::Arc;
 
 /// Hasher for topology keys (a `u64` bit set of switch states): one
 /// multiply-rotate per key (the "Fx" hash of the Rust compiler, common
@@ -299,6 +300,29 @@ pub struct ContactorRule {
 /// supply frequency (see `Engine::osc_grid`).
 type OscGrid = (Rc<Vec<(f64, f64)>>, Vec<u64>);
 
+/// The topologies an engine has built, for another engine of the same
+/// circuit matrices and grid step (a sweep's next point when the varied
+/// field changes no matrix: a source amplitude, or the constant-power load's
+/// power with the previous slope kept; see `sim::WarmStart`).  Each
+/// `TopoData` is a function of the topology matrices and the step only, so
+/// it is reused as it is; `Engine::adopt` checks the match.
+pub struct TopoShare {
+    circuit: Circuit,
+    h_s: f64,
+    map: KeyMap<Arc<TopoData>>,
+}
+
+impl TopoShare {
+    /// Number of topologies held.
+    pub fn len(&self) -> usize {
+        self.map.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.map.is_empty()
+    }
+}
+
 /// The engine for one circuit.
 pub struct Engine {
     pub circuit: Circuit,
@@ -306,7 +330,7 @@ pub struct Engine {
     pub h_s: f64,
     pub i_tol_a: f64,
     pub v_tol_v: f64,
-    cache: KeyMap<Rc<TopoData>>,
+    cache: KeyMap<Arc<TopoData>>,
     pub max_events: usize,
     pub n_events: usize,
     /// Periods (or transient intervals) marched, and topologies built.
@@ -392,7 +416,7 @@ impl Engine {
     }
 
     /// The cached model of a topology.
-    pub fn topo(&mut self, on: &[bool]) -> Result<Rc<TopoData>, SolveError> {
+    pub fn topo(&mut self, on: &[bool]) -> Result<Arc<TopoData>, SolveError> {
         let key = Self::key(on);
         if let Some(t) = self.cache.get(&key) {
             return Ok(t.clone());
@@ -429,7 +453,7 @@ impl Engine {
                 m
             })
             .collect();
-        let d = Rc::new(TopoData {
+        let d = Arc::new(TopoData {
             topo,
             step,
             table,
@@ -443,8 +467,33 @@ impl Engine {
         Ok(d)
     }
 
+    /// The topologies built so far, for a later engine of the same matrices.
+    pub fn share(&self) -> TopoShare {
+        TopoShare {
+            circuit: self.circuit.clone(),
+            h_s: self.h_s,
+            map: self.cache.clone(),
+        }
+    }
+
+    /// Take the topologies of `share` when it was made by an engine of the
+    /// same circuit matrices and grid step; returns whether it was taken.
+    /// Topologies taken are not counted in `n_topologies_built`.
+    pub fn adopt(&mut self, share: &TopoShare) -> bool {
+        if share.h_s != self.h_s || !share.circuit.same_matrices(&self.circuit) {
+            return false;
+        }
+        for (k, v) in &share.map {
+            if self.cache.len() >= 4096 {
+                break;
+            }
+            self.cache.entry(*k).or_insert_with(|| v.clone());
+        }
+        true
+    }
+
     /// Cached model by key.
-    pub fn topo_key(&mut self, key: u64) -> Result<Rc<TopoData>, SolveError> {
+    pub fn topo_key(&mut self, key: u64) -> Result<Arc<TopoData>, SolveError> {
         let on = self.on_from_key(key);
         self.topo(&on)
     }
@@ -583,7 +632,7 @@ impl Engine {
         t_s: f64,
         events: &mut Vec<Event>,
         keep: Option<usize>,
-    ) -> Result<Rc<TopoData>, SolveError> {
+    ) -> Result<Arc<TopoData>, SolveError> {
         let n = on.len();
         let mut seen: Vec<(u64, f64)> = Vec::new();
         for _ in 0..(4 * n + 8) {
@@ -1161,7 +1210,7 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f6
     let mut rows: KeyMap<Vec<f64>> = KeyMap::default();
     let n = run.pieces.first().map_or(0, |p| p.z.len());
     let (mut z_mid, mut tmp, mut z_end) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
-    let mut last: Option<(u64, Rc<TopoData>)> = None;
+    let mut last: Option<(u64, Arc<TopoData>)> = None;
     for (i, p) in run.pieces.iter().enumerate() {
         let td = match &last {
             Some((k, td)) if *k == p.key => td.clone(),
