@@ -875,30 +875,40 @@ fn simulate_with(
         }
     }
     if use_fft {
-        let mut plan = fft::Plan::new(n_grid);
-        // Sequence 0 sits on the knots, sequence 1 half a step later.
-        for (sj, offset) in [(0usize, 0.0f64), (1, h_step / 2.0)] {
-            let mut j = 0;
-            while j < harm_signals.len() {
-                let j2 = (j + 1).min(harm_signals.len() - 1);
-                let (xa, xb) = plan.two_real(&seq[sj][j], &seq[sj][j2], h_max);
-                let pairs: Vec<(usize, &Vec<(f64, f64)>)> = if j2 == j {
-                    vec![(j, &xa)]
-                } else {
-                    vec![(j, &xa), (j2, &xb)]
-                };
-                for (jj, x) in pairs {
-                    for h in 1..=h_max {
-                        // sum v e^{+i h w t} = e^{i h w offset} conj(X[h]).
-                        let (sn, cs) = (h as f64 * w * offset).sin_cos();
-                        let (xr, xi) = (x[h].0, -x[h].1);
-                        acc.four[jj][h].0 += cs * xr - sn * xi;
-                        acc.four[jj][h].1 += sn * xr + cs * xi;
+        // sum v e^{+i h w t} over a sequence offset by `offset` from the
+        // knots is e^{i h w offset} conj(X[h]).
+        let rot: Vec<(f64, f64)> = (0..=h_max)
+            .map(|h| {
+                let (sn, cs) = (h as f64 * w * h_step / 2.0).sin_cos();
+                (cs, sn)
+            })
+            .collect();
+        let mut xa = vec![(0.0, 0.0); h_max + 1];
+        let mut xb = vec![(0.0, 0.0); h_max + 1];
+        fft::with_plan(n_grid, |plan| {
+            // Sequence 0 sits on the knots, sequence 1 half a step later.
+            for sj in 0..2 {
+                let mut j = 0;
+                while j < harm_signals.len() {
+                    let j2 = (j + 1).min(harm_signals.len() - 1);
+                    plan.two_real_into(&seq[sj][j], &seq[sj][j2], &mut xa, &mut xb);
+                    for (jj, x) in [(j, &xa), (j2, &xb)].into_iter().take(j2 + 1 - j) {
+                        for (h, f) in acc.four[jj].iter_mut().enumerate().skip(1) {
+                            let (xr, xi) = (x[h].0, -x[h].1);
+                            if sj == 0 {
+                                f.0 += xr;
+                                f.1 += xi;
+                            } else {
+                                let (cs, sn) = rot[h];
+                                f.0 += cs * xr - sn * xi;
+                                f.1 += sn * xr + cs * xi;
+                            }
+                        }
                     }
+                    j += 2;
                 }
-                j += 2;
             }
-        }
+        });
     }
     let Accum {
         sum,
