@@ -296,15 +296,23 @@ impl OutputForms {
 
 /// `out = m z` with `m` stored column after column (`out.len()` rows): a
 /// sum of columns, each scaled by an entry of `z` (entries zero, such as a
-/// resting oscillator's, skipped).  Each entry sums its terms in the order
-/// of `Mat::mul_vec_into`.
+/// resting oscillator's, skipped after the first).  Each entry sums its
+/// terms in the order of `Mat::mul_vec_into`.
 fn mul_by_columns(m: &[f64], z: &[f64], out: &mut [f64]) {
-    out.fill(0.0);
     let rows = out.len();
     if rows == 0 {
         return;
     }
-    for (zj, col) in z.iter().zip(m.chunks_exact(rows)) {
+    let mut cols = z.iter().zip(m.chunks_exact(rows));
+    match cols.next() {
+        Some((z0, col)) => {
+            for (o, x) in out.iter_mut().zip(col) {
+                *o = z0 * x;
+            }
+        }
+        None => out.fill(0.0),
+    }
+    for (zj, col) in cols {
         if *zj == 0.0 {
             continue;
         }
@@ -818,27 +826,25 @@ fn simulate_with(
     let nz = built.circuit.n_z();
     // Evaluated forms: the probes, then `q z`.
     let rows = n_probe + nz;
-    // Start values of every piece (probes and `q z`) and its dissipation.
+    // Start values of every piece: its probes, then its dissipation.
     let n_pieces = run.pieces.len();
     let mut piece_form = Vec::with_capacity(n_pieces);
-    let mut start_vals = vec![0.0; n_pieces * rows];
-    let mut start_q = vec![0.0; n_pieces];
+    let mut start_vals = Vec::with_capacity(n_pieces * (n_probe + 1));
+    let mut vals = vec![0.0; rows];
     let mut last: Option<(u64, usize)> = None;
-    for ((p, out), q) in run
-        .pieces
-        .iter()
-        .zip(start_vals.chunks_exact_mut(rows))
-        .zip(start_q.iter_mut())
-    {
+    for p in &run.pieces {
         let fi = match last {
             Some((key, fi)) if key == p.key => fi,
             _ => form_of(p.key, &mut eng, &mut forms)?,
         };
         last = Some((p.key, fi));
         piece_form.push(fi);
-        *q = forms[fi].eval(&p.z, n_probe, out);
+        let q = forms[fi].eval(&p.z, n_probe, &mut vals);
+        start_vals.extend_from_slice(&vals[..n_probe]);
+        start_vals.push(q);
     }
-    let start_of = |i: usize| &start_vals[i * rows..i * rows + n_probe];
+    let start_of = |i: usize| &start_vals[i * (n_probe + 1)..][..n_probe];
+    let start_q = |i: usize| start_vals[i * (n_probe + 1) + n_probe];
     // Samples on the grid: every probe at every knot.  A knot is where the
     // piece starting there starts (same instant, topology and state), so its
     // values are that piece's start values; others are evaluated on their own.
@@ -890,7 +896,7 @@ fn simulate_with(
         let smooth_start = prev.is_some_and(|q| q.key == p.key && q.dt_s > 0.0);
         if !whole || !smooth_start {
             if carry != 0.0 {
-                acc.node(carry, v_start, start_q[i], &r);
+                acc.node(carry, v_start, start_q(i), &r);
                 carry = 0.0;
             }
             eng.gauss_states_into(p, &mut gs)?;
@@ -901,7 +907,7 @@ fn simulate_with(
             }
             continue;
         }
-        acc.node(carry + w_end, v_start, start_q[i], &r);
+        acc.node(carry + w_end, v_start, start_q(i), &r);
         carry = 0.0;
         let fo = &forms[fi];
         mul_by_columns(&fo.half, &p.z, &mut z_mid);
