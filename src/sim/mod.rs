@@ -646,7 +646,8 @@ struct Accum {
     p_loss: f64,
     h_max: usize,
     w: f64,
-    /// Scratch: cos(h w t), sin(h w t), h = 1..=h_max, in turn.
+    /// Scratch: cos(h w t), sin(h w t), h = 1..=h_max, in turn, for each
+    /// of four nodes.
     cs: Vec<f64>,
 }
 
@@ -663,7 +664,7 @@ impl Accum {
             p_loss: 0.0,
             h_max,
             w,
-            cs: Vec::with_capacity(2 * h_max),
+            cs: vec![0.0; 8 * h_max],
         }
     }
 
@@ -693,24 +694,37 @@ impl Accum {
         self.p_loss += wt * q;
     }
 
-    /// The Fourier sums of the harmonic signals at one node, directly.
-    fn direct(&mut self, t: f64, wt: f64, vals: &[f64], harm_signals: &[usize]) {
-        // cos(h w t), sin(h w t) by recurrence, h = 1..=h_max.
-        let (s1, c1) = (self.w * t).sin_cos();
-        let (mut ch, mut sh) = (1.0f64, 0.0f64);
-        self.cs.clear();
-        for _ in 0..self.h_max {
-            let nc = ch * c1 - sh * s1;
-            sh = sh * c1 + ch * s1;
-            ch = nc;
-            self.cs.push(ch);
-            self.cs.push(sh);
+    /// The Fourier sums of the harmonic signals at up to four nodes,
+    /// directly: node `n` at time `nodes[n].0` with weight `nodes[n].1` and
+    /// the probe values `vals[n]`.
+    fn direct(&mut self, nodes: &[(f64, f64)], vals: [&[f64]; 4], harm_signals: &[usize]) {
+        // cos(h w t), sin(h w t) by recurrence, h = 1..=h_max, per node.
+        let len = 2 * self.h_max;
+        self.cs.resize(4 * len, 0.0);
+        let n_nodes = nodes.len().min(4);
+        for (&(t, _), cs) in nodes.iter().zip(self.cs.chunks_exact_mut(len)) {
+            let (s1, c1) = (self.w * t).sin_cos();
+            let (mut ch, mut sh) = (1.0f64, 0.0f64);
+            for pair in cs.chunks_exact_mut(2) {
+                let nc = ch * c1 - sh * s1;
+                sh = sh * c1 + ch * s1;
+                ch = nc;
+                pair[0] = ch;
+                pair[1] = sh;
+            }
         }
-        let stride = self.stride();
+        let (c0, rest) = self.cs.split_at(len);
+        let (c1, rest) = rest.split_at(len);
+        let (c2, c3) = rest.split_at(len);
+        let stride = 2 * (self.h_max + 1);
         for (fj, &si) in self.four.chunks_exact_mut(stride).zip(harm_signals) {
-            let v = vals[si] * wt;
-            for (f, cs) in fj[2..].iter_mut().zip(&self.cs) {
-                *f += v * cs;
+            // Weighted values; absent nodes weigh nothing.
+            let mut v = [0.0; 4];
+            for (n, vn) in v.iter_mut().enumerate().take(n_nodes) {
+                *vn = vals[n][si] * nodes[n].1;
+            }
+            for ((((f, a), b), c), d) in fj[2..].iter_mut().zip(c0).zip(c1).zip(c2).zip(c3) {
+                *f += v[0] * a + v[1] * b + v[2] * c + v[3] * d;
             }
         }
     }
@@ -872,6 +886,7 @@ fn simulate_with(
     let mut z_end = vec![0.0; nz];
     let mut mid = vec![0.0; rows];
     let mut end = vec![0.0; rows];
+    let mut gauss_vals: [Vec<f64>; 4] = std::array::from_fn(|_| vec![0.0; rows]);
     let (w_end, w_mid) = (h_step / 6.0, 4.0 * h_step / 6.0);
     // The end weight of a whole step whose end is the next piece's start,
     // added to that start's own (one node for both).
@@ -900,11 +915,14 @@ fn simulate_with(
                 carry = 0.0;
             }
             eng.gauss_states_into(p, &mut gs)?;
-            for (t, wt, z) in &gs {
-                let q = forms[fi].eval(z, n_probe, &mut mid);
-                acc.node(*wt, &mid[..n_probe], q, &r);
-                acc.direct(*t, *wt, &mid[..n_probe], &harm_signals);
+            let mut tw = [(0.0, 0.0); 4];
+            for (((t, wt, z), vals), tw) in gs.iter().zip(gauss_vals.iter_mut()).zip(&mut tw) {
+                let q = forms[fi].eval(z, n_probe, vals);
+                acc.node(*wt, &vals[..n_probe], q, &r);
+                *tw = (*t, *wt);
             }
+            let [g0, g1, g2, g3] = &gauss_vals;
+            acc.direct(&tw[..gs.len().min(4)], [g0, g1, g2, g3], &harm_signals);
             continue;
         }
         acc.node(carry + w_end, v_start, start_q(i), &r);
@@ -948,9 +966,12 @@ fn simulate_with(
                 seq[(n_harm + j) * n_grid + k] = w_mid * v_mid[si];
             }
         } else {
-            acc.direct(p.t_s, w_end, v_start, &harm_signals);
-            acc.direct(p.t_s + h_step / 2.0, w_mid, v_mid, &harm_signals);
-            acc.direct(t_end, w_end, v_end, &harm_signals);
+            let nodes = [
+                (p.t_s, w_end),
+                (p.t_s + h_step / 2.0, w_mid),
+                (t_end, w_end),
+            ];
+            acc.direct(&nodes, [v_start, v_mid, v_end, v_end], &harm_signals);
         }
     }
     if use_fft {
