@@ -812,11 +812,12 @@ fn simulate_with(
     let mut acc = Accum::new(n_probe, n_harm, h_max, w);
     // Integrals over the period.  A whole grid step takes Simpson's rule: its
     // start, middle and end (the middle state is one table level, E(h/2) z;
-    // the ends are the pieces' start values).  A piece
-    // cut by a switching instant takes four-point Gauss-Legendre.  Over
-    // whole steps the Fourier integrals are two uniform sequences, the knots
-    // (start and end weights summed) and the midpoints, summed by FFT (see
-    // `fft`); cut pieces are summed directly.
+    // the ends are the pieces' start values, and a knot shared by two whole
+    // steps is one node of both end weights).  A piece cut by a switching
+    // instant takes four-point Gauss-Legendre.  Over whole steps the Fourier
+    // integrals are two uniform sequences, the knots (start and end weights
+    // summed) and the midpoints, summed by FFT (see `fft`); cut pieces are
+    // summed directly.
     let n_grid = cfg.grid_points;
     let use_fft = n_grid >= 2 * (h_max + 1);
     let h_step = period / n_grid as f64;
