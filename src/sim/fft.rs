@@ -117,6 +117,35 @@ fn pass<const P: usize>(x: &mut [C], m: usize, tw: &[C], bfly: impl Fn(&mut [C; 
     }
 }
 
+/// `pass::<4>` with the four runs of each block walked side by side (the
+/// commonest radix: every pass of a power of two, the default grid).
+fn pass4(x: &mut [C], m: usize, tw: &[C], top: usize) {
+    if m == 1 {
+        pass::<4>(x, m, tw, bfly4, top);
+        return;
+    }
+    let skip_lo = top.min(m);
+    let skip_hi = (m + 1).saturating_sub(top).max(skip_lo);
+    for block in x.chunks_exact_mut(4 * m) {
+        let (r0, rest) = block.split_at_mut(m);
+        let (r1, rest) = rest.split_at_mut(m);
+        let (r2, r3) = rest.split_at_mut(m);
+        let runs = r0
+            .iter_mut()
+            .zip(r1.iter_mut())
+            .zip(r2.iter_mut())
+            .zip(r3.iter_mut());
+        for (k, ((((a, b), c), d), t)) in runs.zip(tw.chunks_exact(3)).enumerate() {
+            if k >= skip_lo && k < skip_hi {
+                continue;
+            }
+            let mut y = [*a, cmul(*b, t[0]), cmul(*c, t[1]), cmul(*d, t[2])];
+            bfly4(&mut y);
+            [*a, *b, *c, *d] = y;
+        }
+    }
+}
+
 fn bfly2(y: &mut [C; 2]) {
     let (a, b) = (y[0], y[1]);
     y[0] = (a.0 + b.0, a.1 + b.1);
@@ -322,7 +351,7 @@ impl Plan {
             match p {
                 2 => pass::<2>(x, m, tw, bfly2, top),
                 3 => pass::<3>(x, m, tw, bfly3, top),
-                4 => pass::<4>(x, m, tw, bfly4, top),
+                4 => pass4(x, m, tw, top),
                 5 => pass::<5>(x, m, tw, bfly5, top),
                 _ => pass::<7>(x, m, tw, |y| bfly7(y, &self.w7), top),
             }
