@@ -48,6 +48,10 @@ impl Mat {
         &self.data[r * self.cols..(r + 1) * self.cols]
     }
 
+    pub fn row_mut(&mut self, r: usize) -> &mut [f64] {
+        &mut self.data[r * self.cols..(r + 1) * self.cols]
+    }
+
     /// `self * other`.
     pub fn mul(&self, other: &Mat) -> Mat {
         let mut out = Mat::zeros(self.rows, other.cols);

@@ -272,19 +272,25 @@ impl WarmStart {
 /// `sum i v^T` over conductances and devices (current row `i`, voltage row
 /// `v` across the element), and `g_min sum v_n v_n^T` over the nodes' leakage
 /// to the reference.
+///
+/// Both are stacked as one matrix `[c; q]`, stored by columns (see
+/// `OutputForms::eval`).  With them the half-step propagator `table[1]`,
+/// also by columns, for the middle of whole grid steps.
 struct OutputForms {
-    c: linalg::Mat,
-    q: linalg::Mat,
+    /// Probes, then entries of `q z`, per column of `z`.
+    at: Vec<f64>,
+    /// `table[1]` by columns.
+    half: Vec<f64>,
 }
 
 impl OutputForms {
-    fn new(built: &Built, t: &Topology) -> OutputForms {
+    fn new(built: &Built, td: &solver::TopoData) -> OutputForms {
+        let t = &td.topo;
         let nz = t.f.cols;
         let n_probe = built.probes.len();
         let mut c = linalg::Mat::zeros(n_probe, nz);
         for (i, pr) in built.probes.iter().enumerate() {
-            let row = probe_row(pr, t, &built.circuit);
-            c.data[i * nz..(i + 1) * nz].copy_from_slice(&row);
+            probe_row_into(pr, t, &built.circuit, c.row_mut(i));
         }
         let mut q = linalg::Mat::zeros(nz, nz);
         let mut add_outer = |a: &[f64], b: &[f64], k: f64| {
@@ -297,18 +303,15 @@ impl OutputForms {
                 }
             }
         };
+        let mut vv = vec![0.0; nz];
         for &e in &built.loss_elems {
             let iv = t.elem_i.row(e);
             match built.circuit.elements[e] {
                 Element::Inductor { r_ohm, .. } => add_outer(iv, iv, r_ohm),
                 Element::Conductance { a, b, .. } | Element::Switch { a, b, .. } => {
-                    let vv: Vec<f64> = t
-                        .node_v
-                        .row(a)
-                        .iter()
-                        .zip(t.node_v.row(b))
-                        .map(|(x, y)| x - y)
-                        .collect();
+                    for ((o, x), y) in vv.iter_mut().zip(t.node_v.row(a)).zip(t.node_v.row(b)) {
+                        *o = x - y;
+                    }
                     add_outer(iv, &vv, 0.5);
                     add_outer(&vv, iv, 0.5);
                 }
@@ -320,12 +323,69 @@ impl OutputForms {
             let r = t.node_v.row(nn);
             add_outer(r, r, g_min);
         }
-        OutputForms { c, q }
+        OutputForms {
+            at: by_columns(&[&c, &q]),
+            half: by_columns(&[&td.table[1]]),
+        }
     }
+
+    /// The probes at the state `z` into `out[..n_probe]` (and `q z` into the
+    /// rest), and the dissipation `z^T q z`.
+    fn eval(&self, z: &[f64], n_probe: usize, out: &mut [f64]) -> f64 {
+        mul_by_columns(&self.at, z, out);
+        dot(&out[n_probe..], z)
+    }
+}
+
+/// `out = m z` with `m` stored column after column (`out.len()` rows): a
+/// sum of columns, each scaled by an entry of `z` (entries zero, such as a
+/// resting oscillator's, skipped after the first).  Each entry sums its
+/// terms in the order of `Mat::mul_vec_into`.
+fn mul_by_columns(m: &[f64], z: &[f64], out: &mut [f64]) {
+    let rows = out.len();
+    if rows == 0 {
+        return;
+    }
+    let mut cols = z.iter().zip(m.chunks_exact(rows));
+    match cols.next() {
+        Some((z0, col)) => {
+            for (o, x) in out.iter_mut().zip(col) {
+                *o = z0 * x;
+            }
+        }
+        None => out.fill(0.0),
+    }
+    for (zj, col) in cols {
+        if *zj == 0.0 {
+            continue;
+        }
+        for (o, x) in out.iter_mut().zip(col) {
+            *o += zj * x;
+        }
+    }
+}
+
+/// The matrices `parts` stacked (same columns), stored column after column.
+fn by_columns(parts: &[&linalg::Mat]) -> Vec<f64> {
+    let cols = parts.first().map_or(0, |m| m.cols);
+    let mut out = Vec::with_capacity(parts.iter().map(|m| m.rows).sum::<usize>() * cols);
+    for j in 0..cols {
+        for m in parts {
+            out.extend((0..m.rows).map(|r| m.at(r, j)));
+        }
+    }
+    out
 }
 
 fn probe_row(p: &Probe, t: &Topology, circuit: &circuit::Circuit) -> Vec<f64> {
     let mut row = vec![0.0; t.f.cols];
+    probe_row_into(p, t, circuit, &mut row);
+    row
+}
+
+/// The probe `p` as a row over `z`, into `row` (zeroed first).
+fn probe_row_into(p: &Probe, t: &Topology, circuit: &circuit::Circuit, row: &mut [f64]) {
+    row.fill(0.0);
     for &(b, c) in &p.terms {
         let r = match b {
             Basic::Node(n) => t.node_v.row(n),
@@ -339,7 +399,6 @@ fn probe_row(p: &Probe, t: &Topology, circuit: &circuit::Circuit) -> Vec<f64> {
             *o += c * x;
         }
     }
-    row
 }
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {
@@ -634,15 +693,17 @@ struct Accum {
     sum2: Vec<f64>,
     mn: Vec<f64>,
     mx: Vec<f64>,
-    /// Per harmonic signal and order: (sum v cos(h w t), sum v sin(h w t)) dt.
-    four: Vec<Vec<(f64, f64)>>,
+    /// Per harmonic signal and order h = 0..=h_max, the pair
+    /// sum v cos(h w t) dt, sum v sin(h w t) dt (`stride` numbers a signal).
+    four: Vec<f64>,
     p_phase: [f64; 3],
     p_load: f64,
     p_loss: f64,
     h_max: usize,
     w: f64,
-    /// Scratch: (cos, sin)(h w t), h = 1..=h_max.
-    cs: Vec<(f64, f64)>,
+    /// Scratch: cos(h w t), sin(h w t), h = 1..=h_max, in turn, for each
+    /// of four nodes.
+    cs: Vec<f64>,
 }
 
 impl Accum {
@@ -652,14 +713,19 @@ impl Accum {
             sum2: vec![0.0; n_probe],
             mn: vec![f64::INFINITY; n_probe],
             mx: vec![f64::NEG_INFINITY; n_probe],
-            four: vec![vec![(0.0, 0.0); h_max + 1]; n_harm],
+            four: vec![0.0; 2 * (h_max + 1) * n_harm],
             p_phase: [0.0; 3],
             p_load: 0.0,
             p_loss: 0.0,
             h_max,
             w,
-            cs: Vec::with_capacity(h_max),
+            cs: vec![0.0; 8 * h_max],
         }
+    }
+
+    /// Numbers per signal in `four`.
+    fn stride(&self) -> usize {
+        2 * (self.h_max + 1)
     }
 
     fn extremes(&mut self, vals: &[f64]) {
@@ -672,9 +738,24 @@ impl Accum {
     /// A quadrature node of weight `wt` (s): every probe's value and the
     /// dissipation `q` there.
     fn node(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex) {
-        for ((s, s2), v) in self.sum.iter_mut().zip(self.sum2.iter_mut()).zip(vals) {
+        self.node_with::<false>(wt, vals, q, r);
+    }
+
+    /// `node` and `extremes` in one pass over the values.
+    fn node_ext(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex) {
+        self.node_with::<true>(wt, vals, q, r);
+    }
+
+    fn node_with<const EXT: bool>(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex) {
+        let sums = self.sum.iter_mut().zip(self.sum2.iter_mut());
+        let ends = self.mn.iter_mut().zip(self.mx.iter_mut());
+        for (((s, s2), (lo, hi)), v) in sums.zip(ends).zip(vals) {
             *s += wt * v;
             *s2 += wt * v * v;
+            if EXT {
+                *lo = lo.min(*v);
+                *hi = hi.max(*v);
+            }
         }
         for k in 0..3 {
             self.p_phase[k] += wt * vals[r.phase_v[k]] * vals[r.line_i[k]];
@@ -683,23 +764,37 @@ impl Accum {
         self.p_loss += wt * q;
     }
 
-    /// The Fourier sums of the harmonic signals at one node, directly.
-    fn direct(&mut self, t: f64, wt: f64, vals: &[f64], harm_signals: &[usize]) {
-        // cos(h w t), sin(h w t) by recurrence, h = 1..=h_max.
-        let (s1, c1) = (self.w * t).sin_cos();
-        let (mut ch, mut sh) = (1.0f64, 0.0f64);
-        self.cs.clear();
-        for _ in 0..self.h_max {
-            let nc = ch * c1 - sh * s1;
-            sh = sh * c1 + ch * s1;
-            ch = nc;
-            self.cs.push((ch, sh));
+    /// The Fourier sums of the harmonic signals at up to four nodes,
+    /// directly: node `n` at time `nodes[n].0` with weight `nodes[n].1` and
+    /// the probe values `vals[n]`.
+    fn direct(&mut self, nodes: &[(f64, f64)], vals: [&[f64]; 4], harm_signals: &[usize]) {
+        // cos(h w t), sin(h w t) by recurrence, h = 1..=h_max, per node.
+        let len = 2 * self.h_max;
+        self.cs.resize(4 * len, 0.0);
+        let n_nodes = nodes.len().min(4);
+        for (&(t, _), cs) in nodes.iter().zip(self.cs.chunks_exact_mut(len)) {
+            let (s1, c1) = (self.w * t).sin_cos();
+            let (mut ch, mut sh) = (1.0f64, 0.0f64);
+            for pair in cs.chunks_exact_mut(2) {
+                let nc = ch * c1 - sh * s1;
+                sh = sh * c1 + ch * s1;
+                ch = nc;
+                pair[0] = ch;
+                pair[1] = sh;
+            }
         }
-        for (fj, &si) in self.four.iter_mut().zip(harm_signals) {
-            let v = vals[si] * wt;
-            for (f, (c, s)) in fj[1..].iter_mut().zip(&self.cs) {
-                f.0 += v * c;
-                f.1 += v * s;
+        let (c0, rest) = self.cs.split_at(len);
+        let (c1, rest) = rest.split_at(len);
+        let (c2, c3) = rest.split_at(len);
+        let stride = 2 * (self.h_max + 1);
+        for (fj, &si) in self.four.chunks_exact_mut(stride).zip(harm_signals) {
+            // Weighted values; absent nodes weigh nothing.
+            let mut v = [0.0; 4];
+            for (n, vn) in v.iter_mut().enumerate().take(n_nodes) {
+                *vn = vals[n][si] * nodes[n].1;
+            }
+            for ((((f, a), b), c), d) in fj[2..].iter_mut().zip(c0).zip(c1).zip(c2).zip(c3) {
+                *f += v[0] * a + v[1] * b + v[2] * c + v[3] * d;
             }
         }
     }
@@ -783,10 +878,12 @@ fn simulate_with(
     harm_signals.dedup();
     let h_max = cfg.h_max as usize;
     let w = 2.0 * PI / period;
-    let mut acc = Accum::new(n_probe, harm_signals.len(), h_max, w);
+    let n_harm = harm_signals.len();
+    let mut acc = Accum::new(n_probe, n_harm, h_max, w);
     // Integrals over the period.  A whole grid step takes Simpson's rule: its
     // start, middle and end (the middle state is one table level, E(h/2) z;
-    // the ends are the pieces' start values).  A piece cut by a switching
+    // the ends are the pieces' start values, and a knot shared by two whole
+    // steps is one node of both end weights).  A piece cut by a switching
     // instant takes four-point Gauss-Legendre.  Over whole steps the Fourier
     // integrals are two uniform sequences, the knots (start and end weights
     // summed) and the midpoints, summed by FFT (see `fft`); cut pieces are
@@ -794,58 +891,61 @@ fn simulate_with(
     let n_grid = cfg.grid_points;
     let use_fft = n_grid >= 2 * (h_max + 1);
     let h_step = period / n_grid as f64;
-    // seq[0][j][k]: weighted values of harmonic signal j at t_k; seq[1] at t_k + h/2.
-    let mut seq: Vec<Vec<Vec<f64>>> = if use_fft {
-        vec![vec![vec![0.0; n_grid]; harm_signals.len()]; 2]
-    } else {
-        Vec::new()
-    };
-    // Per topology: every probe as one matrix over z, and the dissipation as
-    // a quadratic form in z (see `OutputForms`).
-    let mut forms: solver::KeyMap<OutputForms> = solver::KeyMap::default();
-    for key in run
-        .pieces
-        .iter()
-        .map(|p| p.key)
-        .chain(run.knots.iter().map(|k| k.1))
-    {
-        if !forms.contains_key(&key) {
+    // seq[(s n_harm + j) n_grid + k]: weighted values of harmonic signal j
+    // at t_k (s = 0) or at t_k + h/2 (s = 1).
+    let mut seq = vec![0.0; if use_fft { 2 * n_harm * n_grid } else { 0 }];
+    // Per topology met: every probe and the dissipation as forms over z
+    // (see `OutputForms`), found by key.
+    let mut forms: Vec<OutputForms> = Vec::new();
+    let mut key_form: solver::KeyMap<usize> = solver::KeyMap::default();
+    let mut form_of =
+        |key: u64, eng: &mut Engine, forms: &mut Vec<OutputForms>| -> Result<usize, SolveError> {
+            if let Some(&i) = key_form.get(&key) {
+                return Ok(i);
+            }
             let td = eng.topo_key(key)?;
-            forms.insert(key, OutputForms::new(&built, &td.topo));
-        }
-    }
+            forms.push(OutputForms::new(&built, &td));
+            key_form.insert(key, forms.len() - 1);
+            Ok(forms.len() - 1)
+        };
     let nz = built.circuit.n_z();
-    let mut qz = vec![0.0; nz];
-    let quad = |fo: &OutputForms, z: &[f64], qz: &mut Vec<f64>| -> f64 {
-        fo.q.mul_vec_into(z, qz);
-        dot(qz, z)
-    };
-    // Start values of every piece: probes and dissipation.
+    // Evaluated forms: the probes, then `q z`.
+    let rows = n_probe + nz;
+    // Start values of every piece: its probes, then its dissipation.
     let n_pieces = run.pieces.len();
-    let mut start_vals = vec![0.0; n_pieces * n_probe];
-    let mut start_q = vec![0.0; n_pieces];
-    for (i, p) in run.pieces.iter().enumerate() {
-        let fo = &forms[&p.key];
-        fo.c.mul_vec_into(&p.z, &mut start_vals[i * n_probe..(i + 1) * n_probe]);
-        start_q[i] = quad(fo, &p.z, &mut qz);
+    let mut piece_form = Vec::with_capacity(n_pieces);
+    let mut start_vals = Vec::with_capacity(n_pieces * (n_probe + 1));
+    let mut vals = vec![0.0; rows];
+    let mut last: Option<(u64, usize)> = None;
+    for p in &run.pieces {
+        let fi = match last {
+            Some((key, fi)) if key == p.key => fi,
+            _ => form_of(p.key, &mut eng, &mut forms)?,
+        };
+        last = Some((p.key, fi));
+        piece_form.push(fi);
+        let q = forms[fi].eval(&p.z, n_probe, &mut vals);
+        start_vals.extend_from_slice(&vals[..n_probe]);
+        start_vals.push(q);
     }
+    let start_of = |i: usize| &start_vals[i * (n_probe + 1)..][..n_probe];
+    let start_q = |i: usize| start_vals[i * (n_probe + 1) + n_probe];
     // Samples on the grid: every probe at every knot.  A knot is where the
     // piece starting there starts (same instant, topology and state), so its
     // values are that piece's start values; others are evaluated on their own.
     let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(run.knots.len()); n_probe];
-    let mut knot_vals = vec![0.0; n_probe];
+    let mut knot_vals = vec![0.0; rows];
     let mut piece_i = 0;
     for k in &run.knots {
         while piece_i < n_pieces && run.pieces[piece_i].t_s < k.0 {
             piece_i += 1;
         }
         let v: &[f64] = match run.pieces.get(piece_i) {
-            Some(p) if p.t_s == k.0 && p.key == k.1 && p.z == k.2 => {
-                &start_vals[piece_i * n_probe..(piece_i + 1) * n_probe]
-            }
+            Some(p) if p.t_s == k.0 && p.key == k.1 && p.z == k.2 => start_of(piece_i),
             _ => {
-                forms[&k.1].c.mul_vec_into(&k.2, &mut knot_vals);
-                &knot_vals
+                let fi = form_of(k.1, &mut eng, &mut forms)?;
+                forms[fi].eval(&k.2, n_probe, &mut knot_vals);
+                &knot_vals[..n_probe]
             }
         };
         for (smp, x) in samples.iter_mut().zip(v) {
@@ -855,13 +955,16 @@ fn simulate_with(
     let mut gs = Vec::new();
     let mut z_mid = vec![0.0; nz];
     let mut z_end = vec![0.0; nz];
-    let mut v_mid = vec![0.0; n_probe];
-    let mut v_end = vec![0.0; n_probe];
+    let mut mid = vec![0.0; rows];
+    let mut end = vec![0.0; rows];
+    let mut gauss_vals: [Vec<f64>; 4] = std::array::from_fn(|_| vec![0.0; rows]);
+    let (w_end, w_mid) = (h_step / 6.0, 4.0 * h_step / 6.0);
+    // The end weight of a whole step whose end is the next piece's start,
+    // added to that start's own (one node for both).
+    let mut carry = 0.0;
     for (i, p) in run.pieces.iter().enumerate() {
-        let fo = &forms[&p.key];
-        let v_start = &start_vals[i * n_probe..(i + 1) * n_probe];
-        // The start counts for min and max whatever the piece.
-        acc.extremes(v_start);
+        let fi = piece_form[i];
+        let v_start = start_of(i);
         // Simpson's rule needs the state smooth on the closed step, start
         // included: after a switching at the knot itself a blocking device's
         // leakage leaves a transient far shorter than the step (the stiff
@@ -875,86 +978,113 @@ fn simulate_with(
             run.pieces.get(i - 1)
         };
         let smooth_start = prev.is_some_and(|q| q.key == p.key && q.dt_s > 0.0);
+        // The start counts for min and max whatever the piece (`node_ext`
+        // where it is also a node).
         if !whole || !smooth_start {
-            eng.gauss_states_into(p, &mut gs)?;
-            for (t, wt, z) in &gs {
-                fo.c.mul_vec_into(z, &mut v_mid);
-                let q = quad(fo, z, &mut qz);
-                acc.node(*wt, &v_mid, q, &r);
-                acc.direct(*t, *wt, &v_mid, &harm_signals);
+            if carry != 0.0 {
+                acc.node_ext(carry, v_start, start_q(i), &r);
+                carry = 0.0;
+            } else {
+                acc.extremes(v_start);
             }
+            eng.gauss_states_into(p, &mut gs)?;
+            let mut tw = [(0.0, 0.0); 4];
+            for (((t, wt, z), vals), tw) in gs.iter().zip(gauss_vals.iter_mut()).zip(&mut tw) {
+                let q = forms[fi].eval(z, n_probe, vals);
+                acc.node(*wt, &vals[..n_probe], q, &r);
+                *tw = (*t, *wt);
+            }
+            let [g0, g1, g2, g3] = &gauss_vals;
+            acc.direct(&tw[..gs.len().min(4)], [g0, g1, g2, g3], &harm_signals);
             continue;
         }
-        let td = eng.topo_key(p.key)?;
-        td.table[1].mul_vec_into(&p.z, &mut z_mid);
-        fo.c.mul_vec_into(&z_mid, &mut v_mid);
-        let q_mid = quad(fo, &z_mid, &mut qz);
+        acc.node_ext(carry + w_end, v_start, start_q(i), &r);
+        carry = 0.0;
+        let fo = &forms[fi];
+        mul_by_columns(&fo.half, &p.z, &mut z_mid);
+        let q_mid = fo.eval(&z_mid, n_probe, &mut mid);
+        let v_mid = &mid[..n_probe];
+        acc.node_ext(w_mid, v_mid, q_mid, &r);
         // The end: the next piece's start when it starts here in the same
-        // topology, else this topology's values at the end state.
+        // topology (its node then takes this end weight too), else this
+        // topology's values at the end state.
         let t_end = p.t_s + p.dt_s;
         let next = run.pieces.get(i + 1);
-        let q_end = match next {
+        let v_end: &[f64] = match next {
             Some(nx) if nx.key == p.key && (nx.t_s - t_end).abs() < 1e-9 * h_step => {
-                v_end.copy_from_slice(&start_vals[(i + 1) * n_probe..(i + 2) * n_probe]);
-                start_q[i + 1]
+                carry = w_end;
+                start_of(i + 1)
             }
             _ => {
                 match next {
                     Some(nx) if (nx.t_s - t_end).abs() < 1e-9 * h_step => {
                         z_end.copy_from_slice(&nx.z)
                     }
-                    _ => td.step.mul_vec_into(&p.z, &mut z_end),
+                    _ => eng.topo_key(p.key)?.step.mul_vec_into(&p.z, &mut z_end),
                 }
-                fo.c.mul_vec_into(&z_end, &mut v_end);
-                quad(fo, &z_end, &mut qz)
+                let q_end = fo.eval(&z_end, n_probe, &mut end);
+                acc.node_ext(w_end, &end[..n_probe], q_end, &r);
+                &end[..n_probe]
             }
         };
-        let (w_end, w_mid) = (h_step / 6.0, 4.0 * h_step / 6.0);
-        acc.node(w_end, v_start, start_q[i], &r);
-        acc.node(w_mid, &v_mid, q_mid, &r);
-        acc.node(w_end, &v_end, q_end, &r);
-        acc.extremes(&v_mid);
-        acc.extremes(&v_end);
         let k = (p.t_s / h_step).round() as usize;
         if use_fft && k < n_grid && (p.t_s - k as f64 * h_step).abs() < 1e-9 * h_step {
             let k1 = (k + 1) % n_grid;
             for (j, &si) in harm_signals.iter().enumerate() {
-                seq[0][j][k] += w_end * v_start[si];
-                seq[0][j][k1] += w_end * v_end[si];
-                seq[1][j][k] = w_mid * v_mid[si];
+                let knots = &mut seq[j * n_grid..(j + 1) * n_grid];
+                knots[k] += w_end * v_start[si];
+                knots[k1] += w_end * v_end[si];
+                seq[(n_harm + j) * n_grid + k] = w_mid * v_mid[si];
             }
         } else {
-            acc.direct(p.t_s, w_end, v_start, &harm_signals);
-            acc.direct(p.t_s + h_step / 2.0, w_mid, &v_mid, &harm_signals);
-            acc.direct(t_end, w_end, &v_end, &harm_signals);
+            let nodes = [
+                (p.t_s, w_end),
+                (p.t_s + h_step / 2.0, w_mid),
+                (t_end, w_end),
+            ];
+            acc.direct(&nodes, [v_start, v_mid, v_end, v_end], &harm_signals);
         }
     }
     if use_fft {
-        let mut plan = fft::Plan::new(n_grid);
-        // Sequence 0 sits on the knots, sequence 1 half a step later.
-        for (sj, offset) in [(0usize, 0.0f64), (1, h_step / 2.0)] {
-            let mut j = 0;
-            while j < harm_signals.len() {
-                let j2 = (j + 1).min(harm_signals.len() - 1);
-                let (xa, xb) = plan.two_real(&seq[sj][j], &seq[sj][j2], h_max);
-                let pairs: Vec<(usize, &Vec<(f64, f64)>)> = if j2 == j {
-                    vec![(j, &xa)]
-                } else {
-                    vec![(j, &xa), (j2, &xb)]
-                };
-                for (jj, x) in pairs {
-                    for h in 1..=h_max {
-                        // sum v e^{+i h w t} = e^{i h w offset} conj(X[h]).
-                        let (sn, cs) = (h as f64 * w * offset).sin_cos();
-                        let (xr, xi) = (x[h].0, -x[h].1);
-                        acc.four[jj][h].0 += cs * xr - sn * xi;
-                        acc.four[jj][h].1 += sn * xr + cs * xi;
+        // sum v e^{+i h w t} over a sequence offset by `offset` from the
+        // knots is e^{i h w offset} conj(X[h]).
+        let rot: Vec<(f64, f64)> = (0..=h_max)
+            .map(|h| {
+                let (sn, cs) = (h as f64 * w * h_step / 2.0).sin_cos();
+                (cs, sn)
+            })
+            .collect();
+        let mut xa = vec![(0.0, 0.0); h_max + 1];
+        let mut xb = vec![(0.0, 0.0); h_max + 1];
+        let stride = acc.stride();
+        fft::with_plan(n_grid, |plan| {
+            // Sequence 0 sits on the knots, sequence 1 half a step later.
+            for sj in 0..2 {
+                let seq_of = |j: usize| &seq[(sj * n_harm + j) * n_grid..][..n_grid];
+                let mut j = 0;
+                while j < n_harm {
+                    let j2 = (j + 1).min(n_harm - 1);
+                    plan.two_real_into(seq_of(j), seq_of(j2), &mut xa, &mut xb);
+                    for (jj, x) in [(j, &xa), (j2, &xb)].into_iter().take(j2 + 1 - j) {
+                        let four = &mut acc.four[jj * stride..(jj + 1) * stride];
+                        for (h, f) in four.chunks_exact_mut(2).enumerate().skip(1) {
+                            let (xr, xi) = (x[h].0, -x[h].1);
+                            if sj == 0 {
+                                f[0] += xr;
+                                f[1] += xi;
+                            } else {
+                                let (cs, sn) = rot[h];
+                                f[0] += cs * xr - sn * xi;
+                                f[1] += sn * xr + cs * xi;
+                            }
+                        }
                     }
+                    j += 2;
                 }
-                j += 2;
             }
-        }
+        });
     }
+    let stride = acc.stride();
     let Accum {
         sum,
         sum2,
@@ -976,8 +1106,8 @@ fn simulate_with(
                 .map(|h| {
                     // a_h = 2/T int v cos, b_h = 2/T int v sin; v = A cos(h w t + phi)
                     // gives a = A cos phi, b = -A sin phi.
-                    let a = 2.0 * four[j][h].0 / period;
-                    let b = 2.0 * four[j][h].1 / period;
+                    let a = 2.0 * four[j * stride + 2 * h] / period;
+                    let b = 2.0 * four[j * stride + 2 * h + 1] / period;
                     Harmonic {
                         order: h as u32,
                         rms: (a * a + b * b).sqrt() / 2f64.sqrt(),
