@@ -359,7 +359,7 @@ cmd_bench() {
   # bench/report.md and bench/report.json.  Targets are printed, never asserted.
   stage "prerequisites (apt: chromium, ngspice, time)" apt_ensure chromium ngspice time
   cmd_build
-  stage "benchmark (native, wasm in Chromium, ngspice)" python3 bench/run "$@"
+  stage "benchmark (native, wasm in Chromium, ngspice, callgrind instruction counts)" python3 bench/run "$@"
   stage "extreme but legal circuits (worst case; target < 100 ms native)" cargo run --release --example extremes
   summary
 }

@@ -12,6 +12,18 @@
 //!
 //! Options: `--budget-ms N` (time spent per timed case, default 1500),
 //! `--no-scaling`.
+//!
+//! Instruction-count mode (`bench/run` runs it under callgrind; nothing is
+//! timed and the output is only a check of the work done):
+//! * `--instr analyze K FILE`: `rectifield::analyze` of FILE, K times;
+//! * `--instr sweep N START K FILE`: points START .. START+K-1 of the load
+//!   sweep of the scaling runs with N points (same range and step), through
+//!   one `sweep::Sweeper`, so the first point is cold and the later ones
+//!   warm, as in the whole sweep.
+//!
+//! Two runs of different K share the start-up (loading, parsing, process
+//! start and exit), so the difference of their counts over the difference of
+//! K is the count per analysis or per point.
 
 use rectifield::scenario::{from_json, Scenario};
 use rectifield::sweep::{sweep, SweepSpec};
@@ -148,6 +160,73 @@ fn bench_scenario(path: &str, budget: Duration) -> Value {
     })
 }
 
+/// The sweep of the scaling runs: the load power from 10 % to 100 % of the
+/// scenario's value (or the bus capacitance when the load is not constant
+/// power).  Path, from, to.
+fn load_sweep(s: &Scenario) -> (&'static str, f64, f64) {
+    match s.dc.load {
+        rectifield::scenario::DcLoad::ConstantPower { p_w } => ("dc.load.p_w", 0.1 * p_w, p_w),
+        _ => ("dc.cap_f", 1e-3, 10e-3),
+    }
+}
+
+/// `--instr ...` (see the top of the file): the work whose instructions are
+/// counted, and a small JSON check of it.
+fn instr(args: &[String]) -> Value {
+    let num = |i: usize, what: &str| -> usize {
+        args.get(i)
+            .and_then(|x| x.parse().ok())
+            .unwrap_or_else(|| panic!("--instr: {what} expected"))
+    };
+    match args.first().map(String::as_str) {
+        Some("analyze") => {
+            let k = num(1, "K");
+            let path = args.get(2).expect("--instr analyze K FILE");
+            let s = load(path);
+            let mut failed = 0;
+            let mut v_dc = f64::NAN;
+            for _ in 0..k {
+                let a = rectifield::analyze(black_box(&s)).expect("analyze");
+                match a.results.as_ref() {
+                    Some(r) => v_dc = r.dc.v_avg_v,
+                    None => failed += 1,
+                }
+                black_box(a);
+            }
+            json!({"mode": "analyze", "file": path, "k": k, "failed": failed, "v_dc_avg_v": v_dc})
+        }
+        Some("sweep") => {
+            let (n, start, k) = (num(1, "N"), num(2, "START"), num(3, "K"));
+            let path = args.get(4).expect("--instr sweep N START K FILE");
+            let s = load(path);
+            let (spath, from, to) = load_sweep(&s);
+            let spec = SweepSpec {
+                path: spath.into(),
+                from,
+                to,
+                points: n,
+            };
+            let xs = rectifield::sweep::xs(&spec);
+            assert!(start + k <= n, "--instr sweep: START + K > N");
+            let mut run = rectifield::sweep::Sweeper::new(&s, spath).expect("sweep path");
+            let mut failed = 0;
+            let mut v_dc = f64::NAN;
+            for &x in &xs[start..start + k] {
+                let p = run.point(black_box(x));
+                match p.summary.as_ref() {
+                    Some(sm) => v_dc = sm.v_dc_avg_v,
+                    None => failed += 1,
+                }
+                black_box(p);
+            }
+            json!({"mode": "sweep", "file": path, "path": spath, "from": from, "to": to,
+                   "points": n, "start": start, "k": k, "failed": failed,
+                   "x_first": xs[start], "x_last": xs[start + k - 1], "v_dc_avg_v_last": v_dc})
+        }
+        _ => panic!("usage: bench --instr analyze K FILE | --instr sweep N START K FILE"),
+    }
+}
+
 fn scaling(path: &str, budget: Duration) -> Value {
     let s = load(path);
     let mut h = Vec::new();
@@ -179,12 +258,7 @@ fn scaling(path: &str, budget: Duration) -> Value {
         );
         tr.push(json!({"transient_cycles": cycles, "analyze": st}));
     }
-    // Sweep of the load power from 10 % to 100 % of the scenario's value
-    // (or of the bus capacitance when the load is not constant power).
-    let (spath, from, to) = match s.dc.load {
-        rectifield::scenario::DcLoad::ConstantPower { p_w } => ("dc.load.p_w", 0.1 * p_w, p_w),
-        _ => ("dc.cap_f", 1e-3, 10e-3),
-    };
+    let (spath, from, to) = load_sweep(&s);
     let mut sw = Vec::new();
     for points in [10usize, 100, 1000] {
         let spec = SweepSpec {
@@ -231,6 +305,11 @@ fn scaling(path: &str, budget: Duration) -> Value {
 }
 
 fn main() {
+    let all: Vec<String> = std::env::args().skip(1).collect();
+    if all.first().map(String::as_str) == Some("--instr") {
+        println!("{}", instr(&all[1..]));
+        return;
+    }
     let mut budget = Duration::from_millis(1500);
     let mut files = Vec::new();
     let mut do_scaling = true;
