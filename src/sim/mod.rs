@@ -736,26 +736,16 @@ impl Accum {
     }
 
     /// A quadrature node of weight `wt` (s): every probe's value and the
-    /// dissipation `q` there.
+    /// dissipation `q` there.  Every node is a point of the waveform, so it
+    /// counts for min and max too (one pass over the values).
     fn node(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex) {
-        self.node_with::<false>(wt, vals, q, r);
-    }
-
-    /// `node` and `extremes` in one pass over the values.
-    fn node_ext(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex) {
-        self.node_with::<true>(wt, vals, q, r);
-    }
-
-    fn node_with<const EXT: bool>(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex) {
         let sums = self.sum.iter_mut().zip(self.sum2.iter_mut());
         let ends = self.mn.iter_mut().zip(self.mx.iter_mut());
         for (((s, s2), (lo, hi)), v) in sums.zip(ends).zip(vals) {
             *s += wt * v;
             *s2 += wt * v * v;
-            if EXT {
-                *lo = lo.min(*v);
-                *hi = hi.max(*v);
-            }
+            *lo = lo.min(*v);
+            *hi = hi.max(*v);
         }
         for k in 0..3 {
             self.p_phase[k] += wt * vals[r.phase_v[k]] * vals[r.line_i[k]];
@@ -978,11 +968,11 @@ fn simulate_with(
             run.pieces.get(i - 1)
         };
         let smooth_start = prev.is_some_and(|q| q.key == p.key && q.dt_s > 0.0);
-        // The start counts for min and max whatever the piece (`node_ext`
+        // The start counts for min and max whatever the piece (`node`
         // where it is also a node).
         if !whole || !smooth_start {
             if carry != 0.0 {
-                acc.node_ext(carry, v_start, start_q(i), &r);
+                acc.node(carry, v_start, start_q(i), &r);
                 carry = 0.0;
             } else {
                 acc.extremes(v_start);
@@ -991,6 +981,7 @@ fn simulate_with(
             let mut tw = [(0.0, 0.0); 4];
             for (((t, wt, z), vals), tw) in gs.iter().zip(gauss_vals.iter_mut()).zip(&mut tw) {
                 let q = forms[fi].eval(z, n_probe, vals);
+                // Interior points of the waveform: they count for min and max.
                 acc.node(*wt, &vals[..n_probe], q, &r);
                 *tw = (*t, *wt);
             }
@@ -998,13 +989,13 @@ fn simulate_with(
             acc.direct(&tw[..gs.len().min(4)], [g0, g1, g2, g3], &harm_signals);
             continue;
         }
-        acc.node_ext(carry + w_end, v_start, start_q(i), &r);
+        acc.node(carry + w_end, v_start, start_q(i), &r);
         carry = 0.0;
         let fo = &forms[fi];
         mul_by_columns(&fo.half, &p.z, &mut z_mid);
         let q_mid = fo.eval(&z_mid, n_probe, &mut mid);
         let v_mid = &mid[..n_probe];
-        acc.node_ext(w_mid, v_mid, q_mid, &r);
+        acc.node(w_mid, v_mid, q_mid, &r);
         // The end: the next piece's start when it starts here in the same
         // topology (its node then takes this end weight too), else this
         // topology's values at the end state.
@@ -1023,7 +1014,7 @@ fn simulate_with(
                     _ => eng.topo_key(p.key)?.step.mul_vec_into(&p.z, &mut z_end),
                 }
                 let q_end = fo.eval(&z_end, n_probe, &mut end);
-                acc.node_ext(w_end, &end[..n_probe], q_end, &r);
+                acc.node(w_end, &end[..n_probe], q_end, &r);
                 &end[..n_probe]
             }
         };
