@@ -475,9 +475,8 @@ fn steady_from(
     let cc = built.cpl_constant_current;
     if let (Some(w), Some((eg, p_w))) = (warm, cpl) {
         // The slope and the parameter about the previous bus mean, for this
-        // point's power.
-        // The previous point's slope is kept when it is still close enough
-        // for this point's power (`cpl_keep`).
+        // point's power; the previous point's slope is kept while it is close
+        // enough for this power (`cpl_keep`), which keeps the matrices.
         let v = w.v_dc_mean_v;
         if v > 0.0 {
             if cc {
@@ -776,7 +775,7 @@ impl Accum {
         let (c0, rest) = self.cs.split_at(len);
         let (c1, rest) = rest.split_at(len);
         let (c2, c3) = rest.split_at(len);
-        let stride = 2 * (self.h_max + 1);
+        let stride = self.stride();
         for (fj, &si) in self.four.chunks_exact_mut(stride).zip(harm_signals) {
             // Weighted values; absent nodes weigh nothing.
             let mut v = [0.0; 4];

@@ -477,11 +477,11 @@ impl Engine {
     }
 
     /// Take the topologies of `share` when it was made by an engine of the
-    /// same circuit matrices and grid step; returns whether it was taken.
-    /// Topologies taken are not counted in `n_topologies_built`.
-    pub fn adopt(&mut self, share: &TopoShare) -> bool {
+    /// same circuit matrices and grid step (else nothing).  Topologies taken
+    /// are not counted in `n_topologies_built`.
+    pub fn adopt(&mut self, share: &TopoShare) {
         if share.h_s != self.h_s || !share.circuit.same_matrices(&self.circuit) {
-            return false;
+            return;
         }
         for (k, v) in &share.map {
             if self.cache.len() >= 4096 {
@@ -489,7 +489,6 @@ impl Engine {
             }
             self.cache.entry(*k).or_insert_with(|| v.clone());
         }
-        true
     }
 
     /// Cached model by key.
@@ -1200,11 +1199,12 @@ pub fn solve_periodic(
 /// the end of a piece is the start of the next, and the midpoint of a whole
 /// coarse stride is one table level, so with the row times that level kept
 /// per topology a whole piece costs three dot products (a cut piece one
-/// matrix-vector product per set tick bit).  (Estimated, not measured: over a coarse stride of 8 grid steps
-/// the error is of order 1e-8 of the mean for a bus whose ripple is a few
-/// percent at 6 f.  The rule assumes the signal does not jump within a piece;
-/// the constant-power load's bus, across its capacitor, does not.  The
-/// recording period's own figures use the output stage's rules.)
+/// matrix-vector product per set tick bit).  (Estimated, not measured: over
+/// a coarse stride of 8 grid steps the error is of order 1e-8 of the mean
+/// for a bus whose ripple is a few percent at 6 f.  The rule assumes the
+/// signal does not jump within a piece; the constant-power load's bus,
+/// across its capacitor, does not.  The recording period's own figures use
+/// the output stage's rules.)
 fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f64), SolveError> {
     let mut acc = 0.0;
     let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
