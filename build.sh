@@ -127,7 +127,7 @@ ensure_node() {
   fi
   local stamp="node_modules/.rectifield-lock"
   if [ -f "$stamp" ] && cmp -s package-lock.json "$stamp" && [ -x node_modules/.bin/wasm-opt ] \
-    && [ -x node_modules/.bin/terser ] && [ -f node_modules/uplot/dist/uPlot.iife.min.js ]; then
+    && [ -x node_modules/.bin/terser ] && [ -f node_modules/uplot/dist/uPlot.iife.js ]; then
     return 0
   fi
   say "npm ci (pinned: package-lock.json)"
@@ -220,9 +220,12 @@ assemble_dist() {
   done
   # The plotting library, vendored from npm (pinned in package-lock.json), with its licence.
   local up=node_modules/uplot
-  [ -f "$up/dist/uPlot.iife.min.js" ] || die "$up missing: run npm ci (./build.sh installs it)"
+  [ -f "$up/dist/uPlot.iife.js" ] || die "$up missing: run npm ci (./build.sh installs it)"
   mkdir -p "$stage/vendor"
-  cp "$up/dist/uPlot.iife.min.js" "$up/dist/uPlot.min.css" "$stage/vendor/"
+  # Its script minified from the readable source with the two Intl formatters
+  # it builds at start made lazy (tools/vendor-uplot.mjs says why).
+  node tools/vendor-uplot.mjs "$up" "$stage/vendor/uPlot.iife.min.js"
+  cp "$up/dist/uPlot.min.css" "$stage/vendor/"
   cp "$up/LICENSE" "$stage/vendor/uPlot.LICENSE"
   # dist/index.html is the single self-contained page (the folder and the file
   # that travels alone are the same page), with the installed copy's files

@@ -1721,6 +1721,8 @@
   // ------------------------------------------------------------ start
 
   function base64ToBytes(b64) {
+    // native decoder where the browser has one (Chromium 140, Firefox 133 on)
+    if (typeof Uint8Array.fromBase64 === "function") return Uint8Array.fromBase64(b64);
     const bin = atob(b64);
     const out = new Uint8Array(bin.length);
     for (let i = 0; i < bin.length; i++) out[i] = bin.charCodeAt(i);
@@ -1752,13 +1754,6 @@
     }
     $("#version").textContent = wasm_bindgen.version();
     $("#print-version").textContent = wasm_bindgen.version();
-    if (globalThis.RectifieldField) {
-      try {
-        globalThis.RectifieldField.start();
-      } catch (err) {
-        console.warn("field check not started:", err);
-      }
-    }
     defaults = wasm_bindgen.default_scenario();
     buildForm(defaults);
     base = defaults;
@@ -1889,6 +1884,22 @@
 
     restoring = false;
     compute();
+    // The field check (a mode the page never opens in) is built after the
+    // first design result is on screen, so that it does not delay it.
+    let fieldStarted = false;
+    const startField = () => {
+      if (fieldStarted || !globalThis.RectifieldField) return;
+      fieldStarted = true;
+      try {
+        globalThis.RectifieldField.start();
+      } catch (err) {
+        console.warn("field check not started:", err);
+      }
+    };
+    // after the next frame is painted; the timeout covers a page opened in
+    // a background tab, where frames wait
+    requestAnimationFrame(() => setTimeout(startField, 0));
+    setTimeout(startField, 400);
     fillSweepChoices();
     $("#sweep-field").dispatchEvent(new Event("change"));
   }

@@ -68,6 +68,11 @@ for (const b of BROWSERS) {
     after(async () => {
       if (page) {
         fs.mkdirSync(ARTIFACTS, { recursive: true });
+        // The cards far below the viewport are not painted (content-visibility:
+        // auto, style.css); for the full-page picture paint them all.
+        await page
+          .addStyleTag({ content: "#sections > .card, #inputs > fieldset { content-visibility: visible !important; }" })
+          .catch(() => {});
         await page
           .screenshot({ path: path.join(ARTIFACTS, `page-${b.name}.png`), fullPage: true })
           .catch(() => {});
@@ -121,6 +126,41 @@ for (const b of BROWSERS) {
         // The page is one file: its own load is the only request.
         const loads = requests.filter((u) => !u.startsWith("data:") && !u.startsWith("blob:"));
         assert.deepEqual(loads, [INDEX_URL], `requests seen: ${loads.join(", ")}`);
+      }
+    });
+
+    test("start-up to the first result makes no Intl object (no ICU start-up on that path)", async () => {
+      // The first Intl object of a page starts the browser's ICU data (measured
+      // 35 to 80 ms in headless Chromium on a slow host, 2026-12-03); uPlot made
+      // two at load until tools/vendor-uplot.mjs made them lazy.  The page
+      // formats numbers itself (units.js).
+      const p2 = await browser.newPage();
+      try {
+        await p2.evaluateOnNewDocument(() => {
+          window.__intlMade = [];
+          for (const k of Object.getOwnPropertyNames(Intl)) {
+            const C = Intl[k];
+            if (typeof C !== "function") continue;
+            Intl[k] = new Proxy(C, {
+              construct(t, a) {
+                window.__intlMade.push(k);
+                return Reflect.construct(t, a);
+              },
+              apply(t, self, a) {
+                window.__intlMade.push(k);
+                return Reflect.apply(t, self, a);
+              },
+            });
+          }
+        });
+        await p2.goto(INDEX_URL, { waitUntil: "load" });
+        await p2.waitForSelector('#results[data-state="current"]', { timeout: TIMEOUT });
+        const probed = await p2.evaluate(() => Array.isArray(window.__intlMade));
+        assert.ok(probed, "the probe was not installed before the page's scripts");
+        const made = await p2.evaluate(() => window.__intlMade);
+        assert.deepEqual(made, [], `Intl objects made before the first result: ${made.join(", ")}`);
+      } finally {
+        await p2.close();
       }
     });
 
