@@ -729,14 +729,15 @@ impl Windows {
 /// piece of 13.7 ns after a switching put a Gauss node at 0.95 ns, 547 V.
 ///
 /// For each switching instant `t_e`, the piece starting there is marched on
-/// in its own topology to `W = 2^b` table ticks, doubling `W` up to the
-/// next switching or `SETTLE_MAX` of the period, and every probe is taken
+/// in its own topology to `W = 2^b` table ticks (one table level each), `W`
+/// up to the next switching or `SETTLE_MAX` of the period, and every probe is taken
 /// back to `t_e` along its slope there: `v(W) - W v'(W)` (with `v' = row F
 /// z`).  Once the stiff modes have died out this is the ideal right-hand
 /// limit, to `W^2 v'' / 2` (1e-8 of the bus with a 720 Hz ripple of 28 V at
 /// the longest window).  When the longest two agree (to `SETTLE_TOL`), the
 /// window is the shortest `W` from which on every one agrees with the
-/// longest, and that value stands in the extremes for the window; a
+/// longest (tried from the longest down), and that value stands in the
+/// extremes for the window; a
 /// switching whose right-hand limit already agrees has no window.  A
 /// transient not settled when the next switching comes leaves the whole
 /// interval out (that switching has its own window); one not settled by
@@ -773,7 +774,7 @@ fn settling_windows(
     let tick = eng.h_s / (1u64 << solver::TABLE_LEVELS) as f64;
     let nz = built.circuit.n_z();
     let rows = n_probe + nz;
-    let (mut z, mut z2, mut fz) = (vec![0.0; nz], vec![0.0; nz], vec![0.0; nz]);
+    let (mut z, mut fz) = (vec![0.0; nz], vec![0.0; nz]);
     let mut scratch = vec![0.0; nz];
     let (mut v, mut dv) = (vec![0.0; rows], vec![0.0; rows]);
     let mut iv: Vec<(f64, f64)> = Vec::new();
@@ -805,22 +806,23 @@ fn settling_windows(
         let td = eng.topo_key(p.key)?;
         let fi = form_of(p.key, eng, forms)?;
         let fo = &forms[fi];
-        let mut back: Vec<Vec<f64>> = Vec::with_capacity((top - lo + 1) as usize);
-        Engine::prop_vec_into(&td, 1u64 << lo, &p.z, &mut z, &mut scratch);
-        for b in lo..=top {
-            if b > lo {
-                // z(2^b ticks) = E(2^(b - 1) ticks) z(2^(b - 1) ticks).
-                Engine::prop_vec_into(&td, 1u64 << (b - 1), &z, &mut z2, &mut scratch);
-                std::mem::swap(&mut z, &mut z2);
-            }
+        // The probes carried back to t_e from W = 2^b ticks, one table
+        // level from the piece's start.
+        let mut back_from = |b: u32, out: &mut Vec<f64>| {
+            Engine::prop_vec_into(&td, 1u64 << b, &p.z, &mut z, &mut scratch);
             let w = tick * (1u64 << b) as f64;
             fo.eval(&z, n_probe, &mut v);
             td.topo.f.mul_vec_into(&z, &mut fz);
             fo.eval(&fz, n_probe, &mut dv);
-            back.push((0..n_probe).map(|i| v[i] - w * dv[i]).collect());
+            out.clear();
+            out.extend((0..n_probe).map(|i| v[i] - w * dv[i]));
+        };
+        let (mut longest, mut shorter) = (Vec::new(), Vec::new());
+        back_from(top, &mut longest);
+        if top > lo {
+            back_from(top - 1, &mut shorter);
         }
-        let last = back.len() - 1;
-        if last == 0 || !agree(&back[last - 1], &back[last]) {
+        if top == lo || !agree(&shorter, &longest) {
             let cut = next - t_e <= SETTLE_MAX * period;
             if cut {
                 iv.push((t_e, next));
@@ -828,17 +830,23 @@ fn settling_windows(
             out.push((piece_i, cut, cut));
             continue;
         }
-        fo.eval(&p.z, n_probe, &mut v);
-        if agree(&v[..n_probe], &back[last]) {
+        let mut start = vec![0.0; rows];
+        fo.eval(&p.z, n_probe, &mut start);
+        if agree(&start[..n_probe], &longest) {
             out.push((piece_i, false, false));
             continue;
         }
-        let mut k = last;
-        while k > 0 && agree(&back[k - 1], &back[last]) {
+        // The shortest window from which on every one agrees with the longest.
+        let mut k = top - 1;
+        while k > lo {
+            back_from(k - 1, &mut shorter);
+            if !agree(&shorter, &longest) {
+                break;
+            }
             k -= 1;
         }
-        iv.push((t_e, t_e + tick * (1u64 << (lo + k as u32)) as f64));
-        settled.push(back.swap_remove(last));
+        iv.push((t_e, t_e + tick * (1u64 << k) as f64));
+        settled.push(longest);
         out.push((piece_i, true, false));
     }
     // Where a switching's start left the extremes, its left-hand limit (the
