@@ -38,6 +38,15 @@ const wb = ctx.__wb;
 // the last bits differ; iterated solves can grow that to ~1e-10.
 const REL = 1e-7;
 const ABS = 1e-9;
+// Extremes (a waveform's min, max, peak or peak to peak, and what is built
+// from them) are 1e-6: the settling windows of the leakage modes after a
+// switching (DEVELOPERS.md, engine section) choose how far to carry a value
+// back by comparing estimates against a threshold, and the last bits that
+// differ between the two builds can tip that choice; measured 2.5e-7 at most
+// on the examples (2026-12-03), far inside the extremes' own grid accuracy.
+const REL_EXTREME = 1e-6;
+const EXTREMES = new Set(['min', 'max', 'v_max_v', 'v_min_v', 'ripple_pp_v', 'i_peak_a', 'device_peak_a',
+  'choke_i_peak_a', 'reactor_i_peak_a', 'v_forward_block_peak_v', 'v_reverse_peak_v', 'worst_device_voltage_v']);
 let compared = 0;
 let failures = [];
 
@@ -53,7 +62,8 @@ function cmp(a, b, where, floor = 0) {
       return;
     }
     const scale = Math.max(Math.abs(a), Math.abs(b), floor);
-    if (!(Math.abs(a - b) <= ABS + REL * scale)) failures.push(`${where}: native ${a} wasm ${b}`);
+    const rel = EXTREMES.has(where.slice(where.lastIndexOf('.') + 1)) ? REL_EXTREME : REL;
+    if (!(Math.abs(a - b) <= ABS + rel * scale)) failures.push(`${where}: native ${a} wasm ${b}`);
     return;
   }
   if (Array.isArray(a) || Array.isArray(b)) {
@@ -129,4 +139,4 @@ if (failures.length) {
   console.log(`parity: FAILED, ${failures.length} differences in ${compared} numbers`);
   process.exit(1);
 }
-console.log(`parity: ${files.length} examples, ${compared} numbers, native and wasm agree within ${REL} relative`);
+console.log(`parity: ${files.length} examples, ${compared} numbers, native and wasm agree within ${REL} relative (extremes ${REL_EXTREME})`);
