@@ -1120,9 +1120,9 @@ impl Engine {
 
     /// Whether switch `k`'s condition, on the wrong side within the tolerance
     /// in state `z` at time `t_s`, goes beyond the tolerance before it comes
-    /// back to the right side, marching on in topology `td` (steps of `m_dt`
-    /// ticks, the step just taken: sixteen of them, then strides of up to one
-    /// coarse stride, for at most one period).  A slow crossing (a current
+    /// back to the right side, marching on in topology `td` (sixteen steps of
+    /// `m_dt` ticks, the step just taken but at least a grid step, then
+    /// coarse strides, for at most one period).  A slow crossing (a current
     /// changing by less than the tolerance per grid step, as at a very light
     /// load) stays inside the band for many steps before it gets beyond it.
     fn goes_beyond(
@@ -1135,7 +1135,7 @@ impl Engine {
         m_dt: u64,
     ) -> bool {
         let top = 1u64 << (TABLE_LEVELS + COARSE_LEVELS);
-        let mut m = m_dt.clamp(1, top);
+        let mut m = m_dt.clamp(1 << TABLE_LEVELS, top);
         let mut cur = z.to_vec();
         let mut next = vec![0.0; z.len()];
         let mut tmp = vec![0.0; z.len()];
@@ -1144,7 +1144,7 @@ impl Engine {
         let mut n = 0;
         while t < t_stop {
             if n == 16 {
-                m = (m.saturating_mul(1 << COARSE_LEVELS)).min(top);
+                m = top;
             }
             Self::prop_vec_into(td, m, &cur, &mut next, &mut tmp);
             std::mem::swap(&mut cur, &mut next);
