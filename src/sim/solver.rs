@@ -791,14 +791,15 @@ impl Engine {
                 let v_end = self.violation(&td, k, on[k], &z_end, t_next);
                 if v_end <= 1.0 {
                     // On the wrong side within the tolerance at the end, after
-                    // starting beyond it on the right side (a condition at
-                    // leakage level never starts there), and beyond it on the
-                    // wrong side a step later: the next step would flip the
-                    // device at its start, late, with up to the tolerance the
-                    // wrong way (the 12-pulse parallel case at 16384 grid
-                    // points: a turn-off 11.7 ns late with -3.4 mA, forced
-                    // through the leakage, which read the bus at 700 V).  The
-                    // crossing inside this step is located now instead.  A
+                    // starting on the right side, and going beyond it on the
+                    // wrong side before coming back (`goes_beyond`, however
+                    // many steps on: a slow crossing stays inside the band for
+                    // many): a later step would flip the device at its start,
+                    // late, with up to the tolerance the wrong way (the
+                    // 12-pulse parallel case at 16384 grid points: a turn-off
+                    // 11.7 ns late with -3.4 mA, forced through the leakage,
+                    // which read the bus at 700 V).  The crossing inside this
+                    // step is located now instead.  A
                     // dip that turns back within the tolerance flips nothing,
                     // as before (taking it when a step end happens to fall in
                     // it made the period map jump: a light load on an
