@@ -791,23 +791,23 @@ impl Engine {
                 let v_end = self.violation(&td, k, on[k], &z_end, t_next);
                 if v_end <= 1.0 {
                     // On the wrong side within the tolerance at the end, after
-                    // starting beyond it on the right side (a condition at
-                    // leakage level never starts there), and beyond it on the
-                    // wrong side a step later: the next step would flip the
-                    // device at its start, late, with up to the tolerance the
-                    // wrong way (the 12-pulse parallel case at 16384 grid
-                    // points: a turn-off 11.7 ns late with -3.4 mA, forced
-                    // through the leakage, which read the bus at 700 V).  The
-                    // crossing inside this step is located now instead.  A
+                    // starting on the right side, and going beyond it on the
+                    // wrong side before coming back (`goes_beyond`, however
+                    // many steps on: a slow crossing stays inside the band for
+                    // many): a later step would flip the device at its start,
+                    // late, with up to the tolerance the wrong way (the
+                    // 12-pulse parallel case at 16384 grid points: a turn-off
+                    // 11.7 ns late with -3.4 mA, forced through the leakage,
+                    // which read the bus at 700 V).  The crossing inside this
+                    // step is located now instead.  A
                     // dip that turns back within the tolerance flips nothing,
                     // as before (taking it when a step end happens to fall in
                     // it made the period map jump: a light load on an
                     // unbalanced supply stalled Newton at 4e-6).
-                    if v_end <= 0.0 || self.violation(&td, k, on[k], &z, t) >= -1.0 {
-                        continue;
-                    }
-                    let z_ahead = Self::prop_vec(&td, m_dt, &z_end);
-                    if self.violation(&td, k, on[k], &z_ahead, t_next + dt) <= 1.0 {
+                    if v_end <= 0.0
+                        || self.violation(&td, k, on[k], &z, t) > 0.0
+                        || !self.goes_beyond(&td, k, on[k], &z_end, t_next, m_dt)
+                    {
                         continue;
                     }
                 } else {
@@ -916,6 +916,7 @@ impl Engine {
                     }
                     z = zr;
                     visited_now.push(Self::key(&on));
+                    let on_before: Vec<bool> = on.clone();
                     td = self.settle(
                         &mut on,
                         &z,
@@ -923,6 +924,7 @@ impl Engine {
                         &mut events,
                         if k == usize::MAX { None } else { Some(k) },
                     )?;
+                    td = self.settle_slow(&mut on, &on_before, &z, t, &mut events, td)?;
                     visited_now.push(Self::key(&on));
                     n_ev += 1;
                     self.total_events += 1;
@@ -1062,6 +1064,102 @@ impl Engine {
     /// Number of topologies built so far.
     pub fn cache_len(&self) -> usize {
         self.cache.len()
+    }
+
+    /// After the flips at a switching instant: a device that they put on the
+    /// wrong side within the tolerance, and that goes beyond it before coming
+    /// back (`goes_beyond`), flips at this instant too, where its condition
+    /// crossed zero.  Left to the tolerance it would flip where a later stop
+    /// finds it beyond it, late, with up to the tolerance the wrong way: in
+    /// an idle interval of a diode bridge the conducting device holds a
+    /// leakage-level current, and when the next one turns on at the natural
+    /// commutation point the first one's current turns negative from zero,
+    /// as the square of the time, with a jump of the order of the device's
+    /// forward voltage one tick past the root over its `r_on`.  `before`: the
+    /// switch states before this instant (a device that has flipped here
+    /// already is left as it is).
+    fn settle_slow(
+        &mut self,
+        on: &mut [bool],
+        before: &[bool],
+        z: &[f64],
+        t_s: f64,
+        events: &mut Vec<Event>,
+        mut td: Arc<TopoData>,
+    ) -> Result<Arc<TopoData>, SolveError> {
+        let m_h = 1u64 << TABLE_LEVELS;
+        let mut flipped: Vec<usize> = Vec::new();
+        loop {
+            let mut pick: Option<(f64, usize)> = None;
+            for j in 0..on.len() {
+                if on[j] != before[j] || flipped.contains(&j) {
+                    continue;
+                }
+                let v = self.violation(&td, j, on[j], z, t_s);
+                if v > 0.0
+                    && v <= 1.0
+                    && pick.is_none_or(|p| v > p.0)
+                    && self.goes_beyond(&td, j, on[j], z, t_s, m_h)
+                {
+                    pick = Some((v, j));
+                }
+            }
+            let Some((_, j)) = pick else {
+                return Ok(td);
+            };
+            on[j] = !on[j];
+            flipped.push(j);
+            events.push(Event {
+                t_s,
+                switch: j,
+                on: on[j],
+            });
+            self.n_events += 1;
+            td = self.settle(on, z, t_s, events, Some(j))?;
+        }
+    }
+
+    /// Whether switch `k`'s condition, on the wrong side within the tolerance
+    /// in state `z` at time `t_s`, goes beyond the tolerance before it comes
+    /// back to the right side, marching on in topology `td` (sixteen steps of
+    /// `m_dt` ticks, the step just taken but at least a grid step, then
+    /// coarse strides, for at most one period).  A slow crossing (a current
+    /// changing by less than the tolerance per grid step, as at a very light
+    /// load) stays inside the band for many steps before it gets beyond it.
+    fn goes_beyond(
+        &self,
+        td: &TopoData,
+        k: usize,
+        on: bool,
+        z: &[f64],
+        t_s: f64,
+        m_dt: u64,
+    ) -> bool {
+        let top = 1u64 << (TABLE_LEVELS + COARSE_LEVELS);
+        let mut m = m_dt.clamp(1 << TABLE_LEVELS, top);
+        let mut cur = z.to_vec();
+        let mut next = vec![0.0; z.len()];
+        let mut tmp = vec![0.0; z.len()];
+        let mut t = t_s;
+        let t_stop = t_s + self.period_s;
+        let mut n = 0;
+        while t < t_stop {
+            if n == 16 {
+                m = top;
+            }
+            Self::prop_vec_into(td, m, &cur, &mut next, &mut tmp);
+            std::mem::swap(&mut cur, &mut next);
+            t += self.tick_time(m);
+            n += 1;
+            let v = self.violation(td, k, on, &cur, t);
+            if v > 1.0 {
+                return true;
+            }
+            if v <= 0.0 || !cur.iter().all(|x| x.is_finite()) {
+                return false;
+            }
+        }
+        false
     }
 
     /// Locate a zero of `c . expm(F tau) z` on (0, dt] (dt = `m_dt` ticks), given
