@@ -537,3 +537,46 @@ fn slow_crossing_twelve_pulse_thyristor_idle_bridge_extremes_grid_independent() 
         ],
     );
 }
+
+/// A thyristor bridge whose gates are on only where every line-to-line
+/// voltage is below the back-EMF carries no current, and the analysis says
+/// its DC-side voltages are leakage-level.  Six-pulse, alpha 126.9 deg, gates
+/// 71.8 deg wide: while a pair may conduct its voltage is
+/// sqrt2 V_LL sin(theta + 60 deg) for theta from alpha on (theta from the
+/// natural commutation point; Mohan, Undeland and Robbins, 3rd ed., ch. 6),
+/// here -23 V and falling, below E = 10.4 V.  The same bridge at alpha
+/// 30 deg conducts and carries no such warning.
+#[test]
+fn a_bridge_that_cannot_conduct_is_flagged() {
+    let mut s = Scenario::default();
+    s.supply.v_ll_rms_v = 137.14;
+    s.supply.f_hz = 50.0;
+    s.source.impedance = SourceImpedance::Direct {
+        r_ohm: 0.0017,
+        l_h: 0.19e-3,
+    };
+    s.source.reactor = LineReactor::None;
+    s.bridge.kind = BridgeKind::SixPulseThyristor;
+    s.bridge.alpha_deg = 126.93;
+    s.bridge.gate_width_deg = 71.77;
+    s.dc.cap_f = 0.0;
+    s.dc.load = DcLoad::Rle {
+        r_ohm: 34.7,
+        l_h: 28.5e-3,
+        e_v: 10.37,
+    };
+    s.analysis.rated_power_w = 8171.0;
+    let window_max =
+        SQRT_2 * s.supply.v_ll_rms_v * ((s.bridge.alpha_deg + 60.0) * PI / 180.0).sin();
+    assert!(window_max < 10.37, "{window_max}");
+    let flagged =
+        |a: &rectifield::Analysis| a.warnings.iter().any(|w| w.starts_with("no conduction"));
+    let a = analyze(&s).unwrap();
+    let i_dc = a.results.as_ref().unwrap().dc.i_avg_a;
+    assert!(i_dc.abs() < 1e-3, "{i_dc}");
+    assert!(flagged(&a), "{:?}", a.warnings);
+    s.bridge.alpha_deg = 30.0;
+    let b = analyze(&s).unwrap();
+    assert!(b.results.as_ref().unwrap().dc.i_avg_a > 1.0);
+    assert!(!flagged(&b), "{:?}", b.warnings);
+}

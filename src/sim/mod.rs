@@ -1382,6 +1382,19 @@ fn simulate_with(
                 .into(),
         );
     }
+    // No device conducts in steady state (a firing angle, gate width and
+    // back-EMF that leave no device forward biased while it may fire, or a
+    // charged bus with no load): the DC side then sits at leakage level, and
+    // voltages across idle devices and the bridge output are set by leakage
+    // (seen: a thyristor bridge at alpha 127 deg into 10 V of back-EMF, its
+    // bus ripple RMS 0.003 V at 1024 grid points and 0.18 V at 8192).
+    let i_dc = &signals[r.i_dc];
+    if i_dc.max.abs().max(i_dc.min.abs()) <= TOL_REL * built.i_base_a {
+        warnings.push(
+            "no conduction: no device of the bridge carries current in steady state (at this firing angle, back-EMF or load); the DC-side voltages and the idle devices' voltages are set by device leakage, so read them as indicative only"
+                .into(),
+        );
+    }
     // A warm start is made, and a warm-started solution kept, only where the
     // periodic solution is unique enough that warm and cold land on the same
     // one (see `WarmStart`); a warm-started point outside that region is
