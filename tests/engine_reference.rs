@@ -446,8 +446,8 @@ fn extremes_of_every_signal_are_grid_independent_twelve_pulse_parallel() {
 /// tolerance (the rest of the tolerance then went through the leakage, and
 /// the peaks read there depended on the grid).  Two cases the random
 /// scenario generator (tests/common/rng.rs) produced (this test and the
-/// next), values written out; the invariant (0.05 % when the grid is refined four times) on the
-/// headline extremes.
+/// next), values written out; the invariant (0.05 % when the grid
+/// is refined four times) on the headline extremes.
 /// * A six-pulse diode bridge with an open device, a 10 H choke and a load
 ///   current far below the tolerance: in each idle interval the conducting
 ///   device holds a leakage-level current, and when the next one turns on at

@@ -751,8 +751,8 @@ impl Windows {
 /// the longest window).  When the longest two agree (to `SETTLE_TOL`), the
 /// window is the shortest `W` from which on every one agrees with the
 /// longest (tried from the longest down), and that value stands in the
-/// extremes for the window; a
-/// switching whose right-hand limit already agrees has no window.  A
+/// extremes for the window; a switching whose right-hand limit already
+/// agrees has no window.  A
 /// transient not settled when the next switching comes leaves the whole
 /// interval out (that switching has its own window); one not settled by
 /// `SETTLE_MAX` is kept as it is.
@@ -950,23 +950,15 @@ impl Accum {
 
     /// A quadrature node of weight `wt` (s): every probe's value and the
     /// dissipation `q` there.  Every node is a point of the waveform, so it
-    /// counts for min and max too (one pass over the values), unless `ext`
-    /// is false (a node in a settling window, see `settling_windows`).
+    /// counts for min and max too, unless `ext` is false (a node in a
+    /// settling window, see `settling_windows`).
     fn node(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex, ext: bool) {
+        for ((s, s2), v) in self.sum.iter_mut().zip(self.sum2.iter_mut()).zip(vals) {
+            *s += wt * v;
+            *s2 += wt * v * v;
+        }
         if ext {
-            let ends = self.mn.iter_mut().zip(self.mx.iter_mut());
-            let sums = self.sum.iter_mut().zip(self.sum2.iter_mut());
-            for (((s, s2), (lo, hi)), v) in sums.zip(ends).zip(vals) {
-                *s += wt * v;
-                *s2 += wt * v * v;
-                *lo = lo.min(*v);
-                *hi = hi.max(*v);
-            }
-        } else {
-            for ((s, s2), v) in self.sum.iter_mut().zip(self.sum2.iter_mut()).zip(vals) {
-                *s += wt * v;
-                *s2 += wt * v * v;
-            }
+            self.extremes(vals);
         }
         for k in 0..3 {
             self.p_phase[k] += wt * vals[r.phase_v[k]] * vals[r.line_i[k]];

@@ -799,11 +799,11 @@ impl Engine {
                     // 12-pulse parallel case at 16384 grid points: a turn-off
                     // 11.7 ns late with -3.4 mA, forced through the leakage,
                     // which read the bus at 700 V).  The crossing inside this
-                    // step is located now instead.  A
-                    // dip that turns back within the tolerance flips nothing,
-                    // as before (taking it when a step end happens to fall in
-                    // it made the period map jump: a light load on an
-                    // unbalanced supply stalled Newton at 4e-6).
+                    // step is located now instead.  A dip that turns back
+                    // within the tolerance flips nothing, as before (taking
+                    // it when a step end happens to fall in it made the
+                    // period map jump: a light load on an unbalanced supply
+                    // stalled Newton at 4e-6).
                     if v_end <= 0.0
                         || self.violation(&td, k, on[k], &z, t) > 0.0
                         || !self.goes_beyond(&td, k, on[k], &z_end, t_next, m_dt)
