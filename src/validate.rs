@@ -110,20 +110,47 @@ pub fn device_phase(i: usize) -> usize {
 
 const PHASE: [&str; 3] = ["a", "b", "c"];
 
-/// Highest value of `cos(|phi| - 30 deg)` (phi wrapped to (-180, 180]) over
-/// `phi` in `[lo_deg, hi_deg]`: the largest line-to-line voltage, per unit of
-/// its peak, that an upper device of phase a can see with any lower device
-/// while its gate is on (see [`validate`]).
-pub fn six_pulse_window_max_pu(lo_deg: f64, hi_deg: f64) -> f64 {
-    let g = |phi: f64| {
-        let w = (phi + 180.0).rem_euclid(360.0) - 180.0;
-        (w.abs() - 30.0).to_radians().cos()
-    };
-    let mut best = g(lo_deg).max(g(hi_deg));
-    // Interior maxima at +-30 degrees (mod 360).
-    for peak in [-30.0, 30.0, 330.0, 390.0, -390.0, -330.0] {
-        if peak >= lo_deg && peak <= hi_deg {
-            best = best.max(1.0);
+/// Highest line-to-line EMF, per unit of its peak, across a pair of devices
+/// (one upper, one lower, on different phases) of a six-pulse thyristor
+/// bridge while both their gates are on; `None` when no two such gates are
+/// ever on together (a gate under 60 degrees wide).  Starting from zero
+/// current a pair must be gated at once, which is why six-pulse bridges get
+/// wide or double pulses (common practice; Mohan, Undeland and Robbins,
+/// *Power Electronics*, 3rd ed., sec. 6-3 on the six-pulse firing sequence).
+///
+/// Angles are `phi` of the phase-a EMF `V_p cos(phi)`, with `v_b` lagging by
+/// 120 degrees and `v_c` leading by 120.  The upper device of phase `u`
+/// (0, 1, 2 for a, b, c) is gated from `alpha - 60 + 120 u` and the lower
+/// one of phase `l` from `alpha + 120 + 120 l`, each for `width_deg` (a+,
+/// c-, b+, a-, c+, b- in turn 60 degrees apart, a+ at its natural
+/// commutation point `phi = -60` plus alpha).  The pair voltage is
+/// `v_u - v_l = Re[(e^(-j120u) - e^(-j120l)) e^(j phi)] V_p`, of magnitude
+/// `sqrt3 V_p`, the line-to-line peak.
+pub fn six_pulse_pair_max_pu(alpha_deg: f64, width_deg: f64) -> Option<f64> {
+    let mut best: Option<f64> = None;
+    for u in 0..3 {
+        for l in 0..3 {
+            if u == l {
+                continue;
+            }
+            let (su, sl) = (120.0 * u as f64, 120.0 * l as f64);
+            let re = (-su).to_radians().cos() - (-sl).to_radians().cos();
+            let im = (-su).to_radians().sin() - (-sl).to_radians().sin();
+            // v_u - v_l = |D| cos(phi + arg D), |D| = sqrt3.
+            let shift = im.atan2(re).to_degrees();
+            let start_u = alpha_deg - 60.0 + su;
+            let start_l = alpha_deg + 120.0 + sl;
+            // Both windows on the unrolled circle: the lower one shifted by
+            // whole turns so that every overlap is found.
+            for k in -2..=2 {
+                let lo_l = start_l + 360.0 * k as f64;
+                let lo = start_u.max(lo_l);
+                let hi = (start_u + width_deg).min(lo_l + width_deg);
+                if hi >= lo {
+                    let m = cos_window_max(lo + shift, hi + shift);
+                    best = Some(best.map_or(m, |b: f64| b.max(m)));
+                }
+            }
         }
     }
     best
@@ -131,13 +158,11 @@ pub fn six_pulse_window_max_pu(lo_deg: f64, hi_deg: f64) -> f64 {
 
 /// Highest value of `cos(phi)` over `phi` in `[lo_deg, hi_deg]`.
 pub fn cos_window_max(lo_deg: f64, hi_deg: f64) -> f64 {
-    let mut best = lo_deg.to_radians().cos().max(hi_deg.to_radians().cos());
-    for peak in [-360.0, 0.0, 360.0] {
-        if peak >= lo_deg && peak <= hi_deg {
-            best = 1.0;
-        }
+    // A whole multiple of 360 degrees inside the window is a peak.
+    if (lo_deg / 360.0).ceil() * 360.0 <= hi_deg {
+        return 1.0;
     }
-    best
+    lo_deg.to_radians().cos().max(hi_deg.to_radians().cos())
 }
 
 /// Check a scenario.  Returns the warnings for a legal scenario, or the
@@ -151,12 +176,15 @@ pub fn cos_window_max(lo_deg: f64, hi_deg: f64) -> f64 {
 ///   connect exceeds `E` plus the device thresholds.  With the phase-a EMF
 ///   `V_p cos(phi)`, `V_p = sqrt2 V_LL / sqrt3`, the natural commutation point
 ///   of device a+ is `phi = -60 deg`, so its gate is on for
-///   `phi in [alpha - 60, alpha - 60 + width]`.  In a six-pulse bridge it can
-///   connect the upper rail to phase a and the lower rail to the lower of b
-///   and c: `v_a - v_b = sqrt2 V_LL cos(phi + 30)`,
-///   `v_a - v_c = sqrt2 V_LL cos(phi - 30)`, so the bridge voltage is at most
-///   `sqrt2 V_LL cos(|phi| - 30)`.  Conduction therefore needs
-///   `sqrt2 V_LL max_window cos(|phi| - 30) > E + 2 V_th`.
+///   `phi in [alpha - 60, alpha - 60 + width]`.  In a six-pulse bridge a
+///   start from zero current needs an upper and a lower device on different
+///   phases gated at once, and the line-to-line EMF between their phases
+///   above `E + 2 V_th` meanwhile ([`six_pulse_pair_max_pu`]: the devices
+///   fire in the order a+, c-, b+, a-, c+, b-, 60 degrees apart, so with a
+///   gate of width `w >= 60` each device shares `w - 60` degrees with the one
+///   fired before it, whose pair voltage starts at
+///   `sqrt2 V_LL cos(alpha - 30)` and then falls once `alpha > 30`; under
+///   60 degrees no pair is ever gated).
 ///   In the three-pulse (star) bridge the bus is `v_a = V_p cos(phi)`, so
 ///   `V_p max_window cos(phi) > E + V_th`.  By symmetry the same holds for
 ///   every device.  That is for a start from zero current.  With continuous
@@ -674,13 +702,15 @@ pub fn validate(s: &Scenario) -> Result<Vec<String>, FieldError> {
         if b.kind.is_controlled() && balanced {
             let lo = b.alpha_deg - 60.0;
             let hi = lo + b.gate_width_deg;
-            let (best_v, line) = if three_pulse {
-                (v_ph_peak * cos_window_max(lo, hi), "phase")
+            // Highest voltage a start from zero current can see: the phase
+            // EMF while a three-pulse gate is on, the line-to-line EMF across
+            // a pair of six-pulse devices while both gates are on (none when
+            // no two gates are ever on together).
+            let best_v = if three_pulse {
+                Some(v_ph_peak * cos_window_max(lo, hi))
             } else {
-                (
-                    SQRT_2 * sup.v_ll_rms_v * six_pulse_window_max_pu(lo, hi),
-                    "line-to-line",
-                )
+                six_pulse_pair_max_pu(b.alpha_deg, b.gate_width_deg)
+                    .map(|pu| SQRT_2 * sup.v_ll_rms_v * pu)
             };
             // Continuous conduction (a device turns on against the one it
             // relieves, not against E) needs the ideal average
@@ -691,15 +721,28 @@ pub fn validate(s: &Scenario) -> Result<Vec<String>, FieldError> {
                 3.0 * SQRT_2 / PI * sup.v_ll_rms_v
             };
             let v_cont = vdo * b.alpha_deg.to_radians().cos();
-            if e + v_drop_th >= best_v && e + v_drop_th >= v_cont {
+            let e_th = e + v_drop_th;
+            if best_v.is_none_or(|v| e_th >= v) && e_th >= v_cont {
+                let start = match best_v {
+                    Some(v) if three_pulse => format!(
+                        "the highest phase voltage while a gate is on is {} V",
+                        fmt(v)
+                    ),
+                    Some(v) => format!(
+                        "the highest line-to-line voltage across two devices gated at once is {} V",
+                        fmt(v)
+                    ),
+                    None => "no two devices are gated at once (a gate under 60 degrees), so no start from zero current".to_string(),
+                };
                 return Err(fe(
                     "bridge.alpha_deg",
                     format!(
-                        "at alpha = {} degrees (gate {} degrees wide) the highest {line} voltage while a gate is on is {} V, not above the back-EMF plus thresholds ({} V): the thyristors can never turn on. Reduce alpha or the back-EMF",
+                        "at alpha = {} degrees (gate {} degrees wide) {start}, and the ideal average for continuous current, Vdo cos(alpha) = {} V, is not above the back-EMF plus thresholds ({} V) either: the thyristors can never conduct. Reduce alpha or the back-EMF{}",
                         fmt(b.alpha_deg),
                         fmt(b.gate_width_deg),
-                        fmt(best_v),
-                        fmt(e + v_drop_th)
+                        fmt(v_cont),
+                        fmt(e_th),
+                        if best_v.is_none() { ", or widen the gate" } else { "" }
                     ),
                 ));
             }
@@ -755,16 +798,78 @@ mod tests {
 
     #[test]
     fn window_maxima() {
-        // alpha = 0, 120-degree gate: the window [-60, 60] holds the peaks at +-30.
-        assert!((six_pulse_window_max_pu(-60.0, 60.0) - 1.0).abs() < 1e-12);
-        // alpha = 120, 30-degree gate: [60, 90], highest at 60: cos(30).
-        assert!((six_pulse_window_max_pu(60.0, 90.0) - (30f64).to_radians().cos()).abs() < 1e-12);
-        // Past 180 the angle wraps: [170, 200] is [170, 180] and [-180, -160].
+        // alpha = 0, 120-degree gates: each pair shares 60 degrees from
+        // alpha - 60 on, where the pair voltage is cos(alpha - 30) = cos(-30)
+        // rising to its peak at alpha - 30: 1.
+        assert!((six_pulse_pair_max_pu(0.0, 120.0).unwrap() - 1.0).abs() < 1e-12);
+        // alpha = 90, 70-degree gates: 10 shared degrees, cos(60) falling to
+        // cos(70).
         assert!(
-            (six_pulse_window_max_pu(170.0, 200.0) - (130f64).to_radians().cos()).abs() < 1e-12
+            (six_pulse_pair_max_pu(90.0, 70.0).unwrap() - (60f64).to_radians().cos()).abs() < 1e-12
         );
+        // alpha = 127, 72 degrees: the pair voltage is negative throughout.
+        let m = six_pulse_pair_max_pu(127.0, 72.0).unwrap();
+        assert!((m - (97f64).to_radians().cos()).abs() < 1e-12, "{m}");
+        // Exactly 60 degrees: the pairs meet at one instant.
+        assert!(
+            (six_pulse_pair_max_pu(45.0, 60.0).unwrap() - (15f64).to_radians().cos()).abs() < 1e-12
+        );
+        // Under 60 degrees no two gates are on together.
+        assert_eq!(six_pulse_pair_max_pu(60.0, 30.0), None);
         assert!((cos_window_max(60.0, 90.0) - 0.5).abs() < 1e-12);
         assert!((cos_window_max(-10.0, 10.0) - 1.0).abs() < 1e-12);
+        assert!((cos_window_max(350.0, 370.0) - 1.0).abs() < 1e-12);
+        assert!((cos_window_max(170.0, 200.0) + (20f64).to_radians().cos()).abs() < 1e-12);
+    }
+
+    /// [`six_pulse_pair_max_pu`] against a brute-force scan of the six
+    /// gate signals and the three phase EMFs over a period.
+    #[test]
+    fn pair_maxima_match_a_scan() {
+        let gate_start = |dev: usize, alpha: f64| -> (usize, bool, f64) {
+            // Firing order a+, c-, b+, a-, c+, b- (phase, upper, start).
+            let (ph, up) = [
+                (0, true),
+                (2, false),
+                (1, true),
+                (0, false),
+                (2, true),
+                (1, false),
+            ][dev];
+            (ph, up, alpha - 60.0 + 60.0 * dev as f64)
+        };
+        let on = |start: f64, w: f64, phi: f64| (phi - start).rem_euclid(360.0) <= w;
+        let v = |ph: usize, phi: f64| (phi - 120.0 * ph as f64).to_radians().cos();
+        for &alpha in &[0.0, 15.0, 30.0, 45.0, 60.0, 90.0, 120.0, 150.0, 179.0] {
+            // (60 degrees exactly, where pairs meet at one instant, is
+            // checked in `window_maxima`.)
+            for &w in &[30.0, 59.0, 61.0, 75.0, 90.0, 120.0, 150.0, 179.0] {
+                let mut best: Option<f64> = None;
+                for a in 0..6 {
+                    for b in 0..6 {
+                        let (pa, ua, sa) = gate_start(a, alpha);
+                        let (pb, ub, sb) = gate_start(b, alpha);
+                        if !(ua && !ub && pa != pb) {
+                            continue;
+                        }
+                        for i in 0..36_000 {
+                            let phi = i as f64 / 100.0;
+                            if on(sa, w, phi) && on(sb, w, phi) {
+                                let x = (v(pa, phi) - v(pb, phi)) / 3f64.sqrt();
+                                best = Some(best.map_or(x, |y: f64| y.max(x)));
+                            }
+                        }
+                    }
+                }
+                let got = six_pulse_pair_max_pu(alpha, w);
+                // The scan steps 0.01 degree: within 2e-4 of a window's end.
+                match (got, best) {
+                    (Some(g), Some(b)) => assert!((g - b).abs() < 2e-4, "{alpha} {w}: {g} {b}"),
+                    (None, None) => {}
+                    _ => panic!("{alpha} {w}: {got:?} {best:?}"),
+                }
+            }
+        }
     }
 
     #[test]
@@ -777,14 +882,26 @@ mod tests {
             l_h: 0.01,
             e_v: 400.0,
         };
-        // 400 V supply: line peak 565.7 V.  At alpha = 150, gate 30: window
-        // [90, 120], highest cos(60) = 0.5, 282.8 V < 400 V.
+        // 400 V supply: line peak 565.7 V.  At alpha = 150, gates 90 wide:
+        // each pair shares 30 degrees, from cos(alpha - 30) = -0.5 falling.
         s.bridge.alpha_deg = 150.0;
-        s.bridge.gate_width_deg = 30.0;
+        s.bridge.gate_width_deg = 90.0;
         assert_eq!(validate(&s).unwrap_err().field, "bridge.alpha_deg");
-        // At alpha = 60 the window holds the peak: allowed.
+        // At alpha = 60 a pair starts at cos(30) = 0.866, 490 V: allowed.
         s.bridge.alpha_deg = 60.0;
         assert!(validate(&s).is_ok());
+        // The same with 30-degree gates: no two devices are gated at once
+        // and Vdo cos(60) = 270 V < 400 V: refused.
+        s.bridge.gate_width_deg = 30.0;
+        assert_eq!(validate(&s).unwrap_err().field, "bridge.alpha_deg");
+        // At alpha = 20 a bridge already running would carry on
+        // (Vdo cos(20) = 508 V): allowed, with the narrow-gate warning.
+        s.bridge.alpha_deg = 20.0;
+        let w = validate(&s).unwrap();
+        assert!(
+            w.iter().any(|x| x.starts_with("bridge.gate_width_deg")),
+            "{w:?}"
+        );
         // Above the line peak nothing can conduct at any alpha.
         s.dc.load = DcLoad::Rle {
             r_ohm: 1.0,

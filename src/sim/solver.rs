@@ -368,6 +368,20 @@ impl Engine {
                 _ => None,
             })
             .collect();
+        // Gate ends are stops too: a thyristor that has not latched by then
+        // drops out (`gate_end`).
+        gate_times.extend(
+            circuit
+                .switches
+                .iter()
+                .filter_map(|&e| match &circuit.elements[e] {
+                    Element::Switch {
+                        kind: SwitchKind::Thyristor { fire_s, width_s },
+                        ..
+                    } => Some((fire_s + width_s).rem_euclid(period_s)),
+                    _ => None,
+                }),
+        );
         gate_times.sort_by(|a, b| a.total_cmp(b));
         gate_times.dedup_by(|a, b| (*a - *b).abs() < 1e-15 * period_s);
         let mults: Option<Vec<u64>> = circuit
@@ -590,6 +604,18 @@ impl Engine {
         }
     }
 
+    /// Is `t_s` the end of thyristor gate `kind`'s window (within 1e-9 of a
+    /// period, far below a grid step and far above the rounding of a stop)?
+    fn gate_end(&self, kind: &SwitchKind, t_s: f64) -> bool {
+        match kind {
+            SwitchKind::Thyristor { fire_s, width_s } => {
+                let d = (t_s - fire_s - width_s).rem_euclid(self.period_s);
+                d.min(self.period_s - d) < 1e-9 * self.period_s
+            }
+            _ => false,
+        }
+    }
+
     /// Is switch `k` allowed to change state at time `t` (by its kind)?
     fn may_switch(&self, k: usize, on: bool, t_s: f64) -> bool {
         let e = self.circuit.switches[k];
@@ -601,7 +627,7 @@ impl Engine {
                 match kind {
                     SwitchKind::Contactor => false,
                     _ if on => true, // turning off: natural commutation
-                    other => self.gate_active(other, t_s),
+                    other => self.gate_active(other, t_s) && !self.gate_end(other, t_s),
                 }
             }
             _ => false,
@@ -615,6 +641,21 @@ impl Engine {
         }
         let v: f64 = dot(&td.cond[k], z);
         if on {
+            // Latching: a thyristor whose current has not reached the
+            // decision tolerance when its gate ends turns off there (a real
+            // one needs its latching current before the gate goes; common
+            // practice, from device data sheets).  Without this rule a
+            // device fired into a bridge with nothing to conduct stayed on
+            // at the leakage level and formed a pair with the next device
+            // fired, which no real bridge does: with 30-degree gates
+            // 60 degrees apart at alpha = 60 into E = 400 V on 400 V, 1.1 A
+            // of DC current.
+            let e = self.circuit.switches[k];
+            if let Element::Switch { kind, .. } = &self.circuit.elements[e] {
+                if self.gate_end(kind, t_s) {
+                    return (-v / self.i_tol_a).max(2.0 - v / self.i_tol_a);
+                }
+            }
             -v / self.i_tol_a
         } else {
             v / self.v_tol_v
