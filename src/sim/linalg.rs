@@ -60,24 +60,26 @@ impl Mat {
     }
 
     /// `out = self * other`, without allocating (`out` has the right shape).
+    /// Each entry sums its terms in the order of the inner index, from +0,
+    /// skipping the zero entries of `self` (a skipped term is a signed zero,
+    /// which leaves such a sum unchanged: the result is the plain product's,
+    /// bit for bit).
     pub fn mul_into(&self, other: &Mat, out: &mut Mat) {
         debug_assert_eq!(self.cols, other.rows);
         debug_assert_eq!((out.rows, out.cols), (self.rows, other.cols));
-        let oc = other.cols;
-        out.data.iter_mut().for_each(|x| *x = 0.0);
-        for i in 0..self.rows {
-            let orow = &mut out.data[i * oc..(i + 1) * oc];
-            for k in 0..self.cols {
-                let a = self.data[i * self.cols + k];
-                if a == 0.0 {
-                    continue;
-                }
-                let brow = &other.data[k * oc..(k + 1) * oc];
-                for (o, b) in orow.iter_mut().zip(brow) {
-                    *o += a * b;
-                }
-            }
-        }
+        mul_kernel(self, other, out, None);
+    }
+
+    /// `mul_into` where row `k` of `other` is zero outside the columns
+    /// `ranges[k].0 .. ranges[k].1` (the structure of a state matrix's
+    /// powers: the oscillator rows are zero outside their pair, the
+    /// parameter and constant rows zero): only those columns are added, so
+    /// the result is `mul_into`'s bit for bit when the structure holds.
+    pub fn mul_into_ranges(&self, other: &Mat, out: &mut Mat, ranges: &[(usize, usize)]) {
+        debug_assert_eq!(self.cols, other.rows);
+        debug_assert_eq!(ranges.len(), other.rows);
+        debug_assert_eq!((out.rows, out.cols), (self.rows, other.cols));
+        mul_kernel(self, other, out, Some(ranges));
     }
 
     /// `self * v`.
@@ -88,8 +90,13 @@ impl Mat {
     }
 
     pub fn mul_vec_into(&self, v: &[f64], out: &mut [f64]) {
-        for (i, o) in out.iter_mut().enumerate().take(self.rows) {
-            let row = &self.data[i * self.cols..(i + 1) * self.cols];
+        let c = self.cols;
+        if c == 0 {
+            out.iter_mut().take(self.rows).for_each(|o| *o = 0.0);
+            return;
+        }
+        let v = &v[..c.min(v.len())];
+        for (o, row) in out.iter_mut().zip(self.data.chunks_exact(c)) {
             *o = row.iter().zip(v).map(|(a, b)| a * b).sum();
         }
     }
@@ -130,6 +137,87 @@ impl Mat {
             best = best.max(s);
         }
         best
+    }
+}
+
+/// `out = a * b` (see `Mat::mul_into`), with the rows of `b` that `ranges`
+/// marks empty skipped.  A row of `out` is summed in registers when it is
+/// at most 16 long (`mul_rows`, one instance per width); the other zeros
+/// that `ranges` marks are added as they are (a signed zero added to such a
+/// sum leaves it unchanged).
+fn mul_kernel(a: &Mat, b: &Mat, out: &mut Mat, ranges: Option<&[(usize, usize)]>) {
+    let (ac, bc) = (a.cols, b.cols);
+    let o = &mut out.data[..a.rows * bc];
+    if ac == 0 || bc == 0 {
+        o.fill(0.0);
+        return;
+    }
+    let ad = &a.data[..a.rows * ac];
+    let bd = &b.data[..ac * bc];
+    macro_rules! widths {
+        ($($w:literal)*) => {
+            match bc {
+                $($w => mul_rows::<$w>(ad, ac, bd, o, ranges),)*
+                _ => mul_rows_any(ad, ac, bd, bc, o, ranges),
+            }
+        };
+    }
+    widths!(1 2 3 4 5 6 7 8 9 10 11 12 13 14 15 16);
+}
+
+/// `mul_kernel` for `b` of `W` columns: each row of `out` in registers.
+fn mul_rows<const W: usize>(
+    ad: &[f64],
+    ac: usize,
+    bd: &[f64],
+    o: &mut [f64],
+    ranges: Option<&[(usize, usize)]>,
+) {
+    for (orow, arow) in o.chunks_exact_mut(W).zip(ad.chunks_exact(ac)) {
+        let mut acc = [0.0f64; W];
+        for (k, (&x, brow)) in arow.iter().zip(bd.chunks_exact(W)).enumerate() {
+            if x == 0.0 {
+                continue;
+            }
+            if let Some(r) = ranges {
+                if r[k].0 >= r[k].1 {
+                    continue;
+                }
+            }
+            for (y, &w) in acc.iter_mut().zip(brow) {
+                *y += x * w;
+            }
+        }
+        orow.copy_from_slice(&acc);
+    }
+}
+
+/// `mul_kernel` for any width, summing in `out`.
+fn mul_rows_any(
+    ad: &[f64],
+    ac: usize,
+    bd: &[f64],
+    bc: usize,
+    o: &mut [f64],
+    ranges: Option<&[(usize, usize)]>,
+) {
+    o.fill(0.0);
+    for (orow, arow) in o.chunks_exact_mut(bc).zip(ad.chunks_exact(ac)) {
+        for (k, (&x, brow)) in arow.iter().zip(bd.chunks_exact(bc)).enumerate() {
+            if x == 0.0 {
+                continue;
+            }
+            let (lo, hi) = match ranges {
+                Some(r) => r[k],
+                None => (0, bc),
+            };
+            if lo >= hi {
+                continue;
+            }
+            for (y, &w) in orow[lo..hi].iter_mut().zip(&brow[lo..hi]) {
+                *y += x * w;
+            }
+        }
     }
 }
 

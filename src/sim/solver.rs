@@ -114,11 +114,16 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
         }
     }
     let a = f.scale(h_s / 2f64.powi(finest_level as i32));
+    // Where the rows of every power of F (and so of every D) can be
+    // nonzero, and of I + such a sum (`nonzero_ranges`): the products below
+    // skip the rest (the oscillator rows are zero outside their pair, the
+    // parameter and constant rows zero), bit for bit the full products.
+    let (ranges, ranges_i) = nonzero_ranges(f);
     // D = A + A^2/2! + ... + A^6/6!  (Horner: A (I + A/2 (I + A/3 (... (I + A/6))))).
     let mut d = Mat::identity(n);
     let mut tmp = Mat::zeros(n, n);
     for k in (2..=6).rev() {
-        a.mul_into(&d, &mut tmp);
+        a.mul_into_ranges(&d, &mut tmp, &ranges_i);
         let inv = 1.0 / k as f64;
         for (o, x) in d.data.iter_mut().zip(&tmp.data) {
             *o = x * inv;
@@ -127,7 +132,7 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
             d.data[i * n + i] += 1.0;
         }
     }
-    a.mul_into(&d, &mut tmp);
+    a.mul_into_ranges(&d, &mut tmp, &ranges_i);
     std::mem::swap(&mut d, &mut tmp);
     let mut table: Vec<Mat> = Vec::with_capacity(TABLE_LEVELS + 1);
     let mut level = finest_level;
@@ -144,7 +149,7 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
         return None;
     }
     while level > 0 {
-        d.mul_into(&d, &mut tmp);
+        d.mul_into_ranges(&d, &mut tmp, &ranges);
         for (o, x) in tmp.data.iter_mut().zip(&d.data) {
             *o += 2.0 * x;
         }
@@ -157,6 +162,41 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
     // Built finest first; the table is indexed coarsest first.
     table.reverse();
     Some(table)
+}
+
+/// For each row `k` of `f`: the columns `lo .. hi` outside which row `k`
+/// of every power `f^j`, `j >= 1`, is zero (the hull of the columns reachable
+/// from `k` by a path of nonzero entries), and the same with `k` itself
+/// added (the rows of `I + ...`).  An empty row is `(0, 0)`.  Exact: an
+/// entry outside is a sum of products each with an exact zero factor.
+pub fn nonzero_ranges(f: &Mat) -> (Vec<(usize, usize)>, Vec<(usize, usize)>) {
+    let n = f.rows;
+    // reach[k * n + j]: a path of length >= 1 from k to j.
+    let mut reach: Vec<bool> = f.data.iter().map(|x| *x != 0.0).collect();
+    for m in 0..n {
+        for k in 0..n {
+            if reach[k * n + m] {
+                for j in 0..n {
+                    if reach[m * n + j] {
+                        reach[k * n + j] = true;
+                    }
+                }
+            }
+        }
+    }
+    let hull = |k: usize, with_k: bool| -> (usize, usize) {
+        let row = &reach[k * n..(k + 1) * n];
+        let lo = (0..n).find(|&j| row[j] || (with_k && j == k));
+        let hi = (0..n).rev().find(|&j| row[j] || (with_k && j == k));
+        match (lo, hi) {
+            (Some(l), Some(h)) => (l, h + 1),
+            _ => (0, 0),
+        }
+    };
+    (
+        (0..n).map(|k| hull(k, false)).collect(),
+        (0..n).map(|k| hull(k, true)).collect(),
+    )
 }
 
 /// Levels of the dyadic table: times are resolved to `h / 2^TABLE_LEVELS`
@@ -192,6 +232,114 @@ pub struct TopoData {
     /// Each level's block over the physical states and the parameter (the
     /// sensitivity's rows and columns, see `prop_sens`), indexed by tick bit.
     pub sub_levels: Vec<Mat>,
+    /// Every level (tick bit `b` = 0 ..= TABLE_LEVELS + COARSE_LEVELS) packed
+    /// for `apply_level`: the rows of the physical states by columns, then
+    /// each oscillator pair's 2 x 2 block (row-major).  The rest of a level
+    /// is structural: an oscillator row is zero outside its pair (its
+    /// state-matrix rows are the rotation alone) and the parameter and
+    /// constant rows are rows of the identity.
+    packed: Vec<f64>,
+    /// Physical states and oscillator pairs (the packing's shape).
+    nx: usize,
+    n_osc: usize,
+}
+
+impl TopoData {
+    /// Length of one packed level.
+    fn packed_len(&self) -> usize {
+        packed_len(self.nx, self.n_osc)
+    }
+}
+
+fn packed_len(nx: usize, n_osc: usize) -> usize {
+    nx * (nx + 2 * n_osc + 2) + 4 * n_osc
+}
+
+/// Pack a level matrix (see `TopoData::packed`); in debug builds, check
+/// that what is left out is the structure it is taken to be.
+fn pack_level(m: &Mat, nx: usize, n_osc: usize, out: &mut Vec<f64>) {
+    let nz = m.cols;
+    debug_assert_eq!(nz, nx + 2 * n_osc + 2);
+    for j in 0..nz {
+        for i in 0..nx {
+            out.push(m.at(i, j));
+        }
+    }
+    for q in 0..n_osc {
+        let c = nx + 2 * q;
+        out.extend([
+            m.at(c, c),
+            m.at(c, c + 1),
+            m.at(c + 1, c),
+            m.at(c + 1, c + 1),
+        ]);
+    }
+    if cfg!(debug_assertions) {
+        for i in nx..nz {
+            for j in 0..nz {
+                let in_pair = i < nz - 2 && j >= nx && (j - nx) / 2 == (i - nx) / 2;
+                if !in_pair {
+                    let want = if i >= nz - 2 && i == j { 1.0 } else { 0.0 };
+                    debug_assert!(m.at(i, j) == want, "level structure at ({i}, {j})");
+                }
+            }
+        }
+    }
+}
+
+/// Rows `r0 .. r0 + R` of the physical block `xb` (stored by columns of
+/// `nx`) times `z`, into `out` (`R` long): each entry's terms in column
+/// order, the first one not added to anything (`-0 + x` is `x`).
+#[inline(always)]
+fn rows_times<const R: usize>(xb: &[f64], nx: usize, r0: usize, z: &[f64], out: &mut [f64]) {
+    let mut acc = [0.0f64; R];
+    let mut cols = xb.chunks_exact(nx).zip(z);
+    if let Some((c, &zj)) = cols.next() {
+        for (a, &cv) in acc.iter_mut().zip(&c[r0..r0 + R]) {
+            *a = cv * zj;
+        }
+    }
+    for (c, &zj) in cols {
+        for (a, &cv) in acc.iter_mut().zip(&c[r0..r0 + R]) {
+            *a += cv * zj;
+        }
+    }
+    out.copy_from_slice(&acc);
+}
+
+/// `out = L z` for a packed level `lv` (see `TopoData::packed`): each entry
+/// sums its terms in the order of `Mat::mul_vec_into` with the structural
+/// zeros left out, so the value is the full product's (bit for bit, but for
+/// the sign of a zero).
+#[inline]
+fn apply_level(lv: &[f64], nx: usize, z: &[f64], out: &mut [f64]) {
+    let nz = z.len();
+    let (xb, osc) = lv.split_at(nx * nz);
+    // The physical rows in blocks of 4, 2 and 1, each block's sums in
+    // registers, column after column.
+    let mut r0 = 0;
+    while r0 + 4 <= nx {
+        rows_times::<4>(xb, nx, r0, z, &mut out[r0..r0 + 4]);
+        r0 += 4;
+    }
+    if r0 + 2 <= nx {
+        rows_times::<2>(xb, nx, r0, z, &mut out[r0..r0 + 2]);
+        r0 += 2;
+    }
+    if r0 < nx {
+        rows_times::<1>(xb, nx, r0, z, &mut out[r0..r0 + 1]);
+    }
+    let (o_osc, o_pc) = out[nx..nz].split_at_mut(nz - nx - 2);
+    let z_osc = &z[nx..nz - 2];
+    for ((o, zz), blk) in o_osc
+        .chunks_exact_mut(2)
+        .zip(z_osc.chunks_exact(2))
+        .zip(osc.chunks_exact(4))
+    {
+        o[0] = blk[0] * zz[0] + blk[1] * zz[1];
+        o[1] = blk[2] * zz[0] + blk[3] * zz[1];
+    }
+    o_pc.copy_from_slice(&z[nz - 2..]);
 }
 
 /// Length of the state `z` held inline by [`ZVec`]; longer states go to the heap.
@@ -453,6 +601,12 @@ impl Engine {
                 m
             })
             .collect();
+        let (nx, n_osc) = (self.circuit.n_x(), self.circuit.osc_omega.len());
+        let mut packed =
+            Vec::with_capacity(packed_len(nx, n_osc) * (TABLE_LEVELS + COARSE_LEVELS + 1));
+        for b in 0..=TABLE_LEVELS + COARSE_LEVELS {
+            pack_level(level_of(&table, &up, b), nx, n_osc, &mut packed);
+        }
         let d = Arc::new(TopoData {
             topo,
             step,
@@ -460,6 +614,9 @@ impl Engine {
             cond,
             up,
             sub_levels,
+            packed,
+            nx,
+            n_osc,
         });
         if self.cache.len() < 4096 {
             self.cache.insert(key, d.clone());
@@ -527,9 +684,17 @@ impl Engine {
     pub fn prop_vec_into(td: &TopoData, m: u64, z: &[f64], out: &mut Vec<f64>, tmp: &mut Vec<f64>) {
         out.copy_from_slice(z);
         for b in set_bits_down(m) {
-            Self::level(td, b).mul_vec_into(out, tmp);
+            Self::apply(td, b, out, tmp);
             std::mem::swap(out, tmp);
         }
+    }
+
+    /// `out = L_b z` for the level of tick bit `b` (`Self::level(td, b)`
+    /// times `z`, by the packed structure).
+    #[inline]
+    fn apply(td: &TopoData, b: usize, z: &[f64], out: &mut [f64]) {
+        let len = td.packed_len();
+        apply_level(&td.packed[b * len..(b + 1) * len], td.nx, z, out);
     }
 
     /// The sensitivity `S <- expm(F tau) S` via the table, where `S` holds
@@ -1180,7 +1345,7 @@ impl Engine {
             if lo + step >= m_dt {
                 continue;
             }
-            Self::level(td, b).mul_vec_into(&z_lo, &mut tmp);
+            Self::apply(td, b, &z_lo, &mut tmp);
             if sgn * dot(c, &tmp) > 0.0 {
                 lo += step;
                 std::mem::swap(&mut z_lo, &mut tmp);
@@ -1188,12 +1353,14 @@ impl Engine {
         }
         // One finest tick past the last good point.
         let hi = (lo + 1).min(m_dt);
-        let z_hi = if hi == m_dt {
-            Self::prop_vec(td, m_dt, z)
+        if hi == m_dt {
+            let mut out = vec![0.0; z.len()];
+            Self::prop_vec_into(td, m_dt, z, &mut out, &mut tmp);
+            (self.tick_time(hi), out)
         } else {
-            Self::prop_vec(td, 1, &z_lo)
-        };
-        (self.tick_time(hi), z_hi)
+            Self::apply(td, 0, &z_lo, &mut tmp);
+            (self.tick_time(hi), tmp)
+        }
     }
 
     /// The state at the four Gauss-Legendre nodes of a recorded piece, as
