@@ -290,20 +290,49 @@ impl Lu {
         x
     }
 
-    /// Solve `A X = B` column by column.
+    /// Solve `A X = B`: each column as `solve` would (the same operations
+    /// in the same order), all columns at once by row operations.
     pub fn solve_mat(&self, b: &Mat) -> Mat {
-        let mut out = Mat::zeros(b.rows, b.cols);
-        let mut col = vec![0.0; b.rows];
-        for c in 0..b.cols {
-            for r in 0..b.rows {
-                col[r] = b.at(r, c);
-            }
-            let x = self.solve(&col);
-            for r in 0..b.rows {
-                out.set(r, c, x[r]);
+        let n = self.n;
+        let w = b.cols;
+        let mut x = Mat::zeros(n, w);
+        if w == 0 {
+            return x;
+        }
+        for (i, &p) in self.piv.iter().enumerate() {
+            x.row_mut(i).copy_from_slice(b.row(p));
+        }
+        for i in 0..n {
+            let (done, rest) = x.data.split_at_mut(i * w);
+            let xi = &mut rest[..w];
+            for (j, xj) in done.chunks_exact(w).enumerate() {
+                let l = self.lu[i * n + j];
+                if l == 0.0 {
+                    continue;
+                }
+                for (s, v) in xi.iter_mut().zip(xj) {
+                    *s -= l * v;
+                }
             }
         }
-        out
+        for i in (0..n).rev() {
+            let (head, tail) = x.data.split_at_mut((i + 1) * w);
+            let xi = &mut head[i * w..];
+            for (j, xj) in tail.chunks_exact(w).enumerate() {
+                let u = self.lu[i * n + i + 1 + j];
+                if u == 0.0 {
+                    continue;
+                }
+                for (s, v) in xi.iter_mut().zip(xj) {
+                    *s -= u * v;
+                }
+            }
+            let d = self.lu[i * n + i];
+            for s in xi.iter_mut() {
+                *s /= d;
+            }
+        }
+        x
     }
 }
 

@@ -136,17 +136,18 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
     std::mem::swap(&mut d, &mut tmp);
     let mut table: Vec<Mat> = Vec::with_capacity(TABLE_LEVELS + 1);
     let mut level = finest_level;
-    let push = |d: &Mat, table: &mut Vec<Mat>| -> bool {
+    // (A level that is not finite leaves every coarser one not finite in
+    // the same entry, `2 D + D^2` keeping its `2 D` term: only the last is
+    // checked.)
+    let push = |d: &Mat, table: &mut Vec<Mat>| {
         let mut e = d.clone();
         for k in 0..n {
             e.data[k * n + k] += 1.0;
         }
-        let ok = e.data.iter().all(|x| x.is_finite());
         table.push(e);
-        ok
     };
-    if level == TABLE_LEVELS && !push(&d, &mut table) {
-        return None;
+    if level == TABLE_LEVELS {
+        push(&d, &mut table);
     }
     while level > 0 {
         d.mul_into_ranges(&d, &mut tmp, &ranges);
@@ -155,9 +156,12 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
         }
         std::mem::swap(&mut d, &mut tmp);
         level -= 1;
-        if level <= TABLE_LEVELS && !push(&d, &mut table) {
-            return None;
+        if level <= TABLE_LEVELS {
+            push(&d, &mut table);
         }
+    }
+    if !table.last()?.data.iter().all(|x| x.is_finite()) {
+        return None;
     }
     // Built finest first; the table is indexed coarsest first.
     table.reverse();
@@ -260,19 +264,15 @@ fn packed_len(nx: usize, n_osc: usize) -> usize {
 fn pack_level(m: &Mat, nx: usize, n_osc: usize, out: &mut Vec<f64>) {
     let nz = m.cols;
     debug_assert_eq!(nz, nx + 2 * n_osc + 2);
+    let d = &m.data[..nz * nz];
     for j in 0..nz {
-        for i in 0..nx {
-            out.push(m.at(i, j));
-        }
+        out.extend(d[j..].iter().step_by(nz).take(nx));
     }
     for q in 0..n_osc {
         let c = nx + 2 * q;
-        out.extend([
-            m.at(c, c),
-            m.at(c, c + 1),
-            m.at(c + 1, c),
-            m.at(c + 1, c + 1),
-        ]);
+        let r0 = &d[c * nz + c..c * nz + c + 2];
+        let r1 = &d[(c + 1) * nz + c..(c + 1) * nz + c + 2];
+        out.extend([r0[0], r0[1], r1[0], r1[1]]);
     }
     if cfg!(debug_assertions) {
         for i in nx..nz {
@@ -592,13 +592,16 @@ impl Engine {
         let sub_levels = (0..=TABLE_LEVELS + COARSE_LEVELS)
             .map(|b| {
                 let lv = level_of(&table, &up, b);
-                let mut m = Mat::zeros(na, na);
-                for (i, &zi) in sub.iter().enumerate() {
-                    for (k, &zk) in sub.iter().enumerate() {
-                        m.data[i * na + k] = lv.at(zi, zk);
-                    }
+                let mut data = Vec::with_capacity(na * na);
+                for &zi in &sub {
+                    let row = lv.row(zi);
+                    data.extend(sub.iter().map(|&zk| row[zk]));
                 }
-                m
+                Mat {
+                    rows: na,
+                    cols: na,
+                    data,
+                }
             })
             .collect();
         let (nx, n_osc) = (self.circuit.n_x(), self.circuit.osc_omega.len());
