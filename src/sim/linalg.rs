@@ -256,12 +256,14 @@ impl Lu {
                 piv.swap(k, p);
             }
             let d = lu[k * n + k];
-            for i in k + 1..n {
-                let f = lu[i * n + k] / d;
-                lu[i * n + k] = f;
+            let (head, tail) = lu.split_at_mut((k + 1) * n);
+            let pivot_row = &head[k * n + k + 1..];
+            for row in tail.chunks_exact_mut(n) {
+                let f = row[k] / d;
+                row[k] = f;
                 if f != 0.0 {
-                    for j in k + 1..n {
-                        lu[i * n + j] -= f * lu[k * n + j];
+                    for (x, &p) in row[k + 1..].iter_mut().zip(pivot_row) {
+                        *x -= f * p;
                     }
                 }
             }

@@ -233,9 +233,6 @@ pub struct TopoData {
     pub cond: Vec<Vec<f64>>,
     /// `up[c] = expm(F h 2^c)`, c = 0..=COARSE_LEVELS (squarings of the step).
     pub up: Vec<Mat>,
-    /// Each level's block over the physical states and the parameter (the
-    /// sensitivity's rows and columns, see `prop_sens`), indexed by tick bit.
-    pub sub_levels: Vec<Mat>,
     /// Every level (tick bit `b` = 0 ..= TABLE_LEVELS + COARSE_LEVELS) packed
     /// for `apply_level`: the rows of the physical states by columns, then
     /// each oscillator pair's 2 x 2 block (row-major).  The rest of a level
@@ -265,8 +262,13 @@ fn pack_level(m: &Mat, nx: usize, n_osc: usize, out: &mut Vec<f64>) {
     let nz = m.cols;
     debug_assert_eq!(nz, nx + 2 * n_osc + 2);
     let d = &m.data[..nz * nz];
-    for j in 0..nz {
-        out.extend(d[j..].iter().step_by(nz).take(nx));
+    let start = out.len();
+    out.resize(start + nx * nz, 0.0);
+    let cols = &mut out[start..];
+    for (i, row) in d.chunks_exact(nz).take(nx).enumerate() {
+        for (c, &v) in cols.chunks_exact_mut(nx).zip(row) {
+            c[i] = v;
+        }
     }
     for q in 0..n_osc {
         let c = nx + 2 * q;
@@ -307,12 +309,155 @@ fn rows_times<const R: usize>(xb: &[f64], nx: usize, r0: usize, z: &[f64], out: 
     out.copy_from_slice(&acc);
 }
 
+/// `S <- L S` for the sensitivity `S` (rows and columns over the physical
+/// states and the parameter, see `Engine::prop_sens`), held transposed
+/// (`st` is `S^T`, so a column of `S` is a row of `st`), and the block of
+/// the packed level `lv` over the same rows and columns: per column of `S`,
+/// the physical rows in blocks of 4, 2 and 1 in registers, column after
+/// column of the level.  Each entry sums its terms in the order of
+/// `Mat::mul_into` of that block (from +0, the physical columns, then the
+/// parameter's; the zero terms `mul_into` skips leave such a sum
+/// unchanged), so the result is that product's bit for bit; the parameter
+/// row of `S` is kept (that row of the block is `[0 .. 0 1]`).
+fn sens_level(lv: &[f64], nx: usize, n_osc: usize, st: &Mat, out: &mut Mat) {
+    macro_rules! fixed {
+        ($($n:literal)*) => {
+            match nx {
+                $($n => sens_fixed::<$n>(lv, n_osc, st, out),)*
+                _ => sens_any(lv, nx, n_osc, st, out),
+            }
+        };
+    }
+    fixed!(1 2 3 4 5 6 7 8 9 10 11 12);
+}
+
+/// `sens_level` for `NX` physical states: a column's sums all in registers.
+fn sens_fixed<const NX: usize>(lv: &[f64], n_osc: usize, st: &Mat, out: &mut Mat) {
+    let na = NX + 1;
+    let xcols = &lv[..NX * NX];
+    let pcol = &lv[(NX + 2 * n_osc) * NX..(NX + 2 * n_osc + 1) * NX];
+    for (s, o) in st.data.chunks_exact(na).zip(out.data.chunks_exact_mut(na)) {
+        let mut acc = [0.0f64; NX];
+        for (c, &sk) in xcols.chunks_exact(NX).zip(s) {
+            for (a, &cv) in acc.iter_mut().zip(c) {
+                *a += cv * sk;
+            }
+        }
+        let sp = s[NX];
+        for (a, &cv) in acc.iter_mut().zip(pcol) {
+            *a += cv * sp;
+        }
+        o[..NX].copy_from_slice(&acc);
+        o[NX] = sp;
+    }
+}
+
+/// `sens_level` for any number of physical states.
+fn sens_any(lv: &[f64], nx: usize, n_osc: usize, st: &Mat, out: &mut Mat) {
+    let na = nx + 1;
+    debug_assert_eq!((st.rows, st.cols, out.rows, out.cols), (na, na, na, na));
+    let xcols = &lv[..nx * nx];
+    // The parameter's column of the level: the packed column `nz - 2`.
+    let pcol = &lv[(nx + 2 * n_osc) * nx..(nx + 2 * n_osc + 1) * nx];
+    for (s, o) in st.data.chunks_exact(na).zip(out.data.chunks_exact_mut(na)) {
+        let (o_x, o_p) = o.split_at_mut(nx);
+        let mut r0 = 0;
+        while r0 + 4 <= nx {
+            sens_rows::<4>(xcols, pcol, nx, r0, s, &mut o_x[r0..r0 + 4]);
+            r0 += 4;
+        }
+        if r0 + 2 <= nx {
+            sens_rows::<2>(xcols, pcol, nx, r0, s, &mut o_x[r0..r0 + 2]);
+            r0 += 2;
+        }
+        if r0 < nx {
+            sens_rows::<1>(xcols, pcol, nx, r0, s, &mut o_x[r0..r0 + 1]);
+        }
+        o_p[0] = s[nx];
+    }
+}
+
+/// Rows `r0 .. r0 + R` of `sens_level`'s product for one column `s` of `S`.
+#[inline(always)]
+fn sens_rows<const R: usize>(
+    xcols: &[f64],
+    pcol: &[f64],
+    nx: usize,
+    r0: usize,
+    s: &[f64],
+    out: &mut [f64],
+) {
+    let mut acc = [0.0f64; R];
+    for (c, &sk) in xcols.chunks_exact(nx).zip(s) {
+        for (a, &cv) in acc.iter_mut().zip(&c[r0..r0 + R]) {
+            *a += cv * sk;
+        }
+    }
+    let sp = s[nx];
+    for (a, &cv) in acc.iter_mut().zip(&pcol[r0..r0 + R]) {
+        *a += cv * sp;
+    }
+    out.copy_from_slice(&acc);
+}
+
 /// `out = L z` for a packed level `lv` (see `TopoData::packed`): each entry
 /// sums its terms in the order of `Mat::mul_vec_into` with the structural
 /// zeros left out, so the value is the full product's (bit for bit, but for
 /// the sign of a zero).
+/// (One instance per number of physical states up to 12, the sums of all
+/// the physical rows in registers; beyond, blocks of 4, 2 and 1 rows.)
 #[inline]
 fn apply_level(lv: &[f64], nx: usize, z: &[f64], out: &mut [f64]) {
+    macro_rules! fixed {
+        ($($n:literal)*) => {
+            match nx {
+                $($n => apply_fixed::<$n>(lv, z, out),)*
+                _ => apply_any(lv, nx, z, out),
+            }
+        };
+    }
+    fixed!(1 2 3 4 5 6 7 8 9 10 11 12);
+}
+
+/// `apply_level` for `NX` physical states.
+fn apply_fixed<const NX: usize>(lv: &[f64], z: &[f64], out: &mut [f64]) {
+    let nz = z.len();
+    let (xb, osc) = lv.split_at(NX * nz);
+    let mut acc = [0.0f64; NX];
+    let mut cols = xb.chunks_exact(NX).zip(z);
+    if let Some((c, &zj)) = cols.next() {
+        for (a, &cv) in acc.iter_mut().zip(c) {
+            *a = cv * zj;
+        }
+    }
+    for (c, &zj) in cols {
+        for (a, &cv) in acc.iter_mut().zip(c) {
+            *a += cv * zj;
+        }
+    }
+    out[..NX].copy_from_slice(&acc);
+    apply_rest(osc, NX, z, out);
+}
+
+/// The oscillator pairs and the parameter and constant rows of `apply_level`.
+#[inline(always)]
+fn apply_rest(osc: &[f64], nx: usize, z: &[f64], out: &mut [f64]) {
+    let nz = z.len();
+    let (o_osc, o_pc) = out[nx..nz].split_at_mut(nz - nx - 2);
+    let z_osc = &z[nx..nz - 2];
+    for ((o, zz), blk) in o_osc
+        .chunks_exact_mut(2)
+        .zip(z_osc.chunks_exact(2))
+        .zip(osc.chunks_exact(4))
+    {
+        o[0] = blk[0] * zz[0] + blk[1] * zz[1];
+        o[1] = blk[2] * zz[0] + blk[3] * zz[1];
+    }
+    o_pc.copy_from_slice(&z[nz - 2..]);
+}
+
+/// `apply_level` for any number of physical states.
+fn apply_any(lv: &[f64], nx: usize, z: &[f64], out: &mut [f64]) {
     let nz = z.len();
     let (xb, osc) = lv.split_at(nx * nz);
     // The physical rows in blocks of 4, 2 and 1, each block's sums in
@@ -329,17 +474,7 @@ fn apply_level(lv: &[f64], nx: usize, z: &[f64], out: &mut [f64]) {
     if r0 < nx {
         rows_times::<1>(xb, nx, r0, z, &mut out[r0..r0 + 1]);
     }
-    let (o_osc, o_pc) = out[nx..nz].split_at_mut(nz - nx - 2);
-    let z_osc = &z[nx..nz - 2];
-    for ((o, zz), blk) in o_osc
-        .chunks_exact_mut(2)
-        .zip(z_osc.chunks_exact(2))
-        .zip(osc.chunks_exact(4))
-    {
-        o[0] = blk[0] * zz[0] + blk[1] * zz[1];
-        o[1] = blk[2] * zz[0] + blk[3] * zz[1];
-    }
-    o_pc.copy_from_slice(&z[nz - 2..]);
+    apply_rest(osc, nx, z, out);
 }
 
 /// Length of the state `z` held inline by [`ZVec`]; longer states go to the heap.
@@ -587,23 +722,6 @@ impl Engine {
             let m = up[c].mul(&up[c]);
             up.push(m);
         }
-        let sub = self.sens_index();
-        let na = sub.len();
-        let sub_levels = (0..=TABLE_LEVELS + COARSE_LEVELS)
-            .map(|b| {
-                let lv = level_of(&table, &up, b);
-                let mut data = Vec::with_capacity(na * na);
-                for &zi in &sub {
-                    let row = lv.row(zi);
-                    data.extend(sub.iter().map(|&zk| row[zk]));
-                }
-                Mat {
-                    rows: na,
-                    cols: na,
-                    data,
-                }
-            })
-            .collect();
         let (nx, n_osc) = (self.circuit.n_x(), self.circuit.osc_omega.len());
         let mut packed =
             Vec::with_capacity(packed_len(nx, n_osc) * (TABLE_LEVELS + COARSE_LEVELS + 1));
@@ -616,7 +734,6 @@ impl Engine {
             table,
             cond,
             up,
-            sub_levels,
             packed,
             nx,
             n_osc,
@@ -700,15 +817,18 @@ impl Engine {
         apply_level(&td.packed[b * len..(b + 1) * len], td.nx, z, out);
     }
 
-    /// The sensitivity `S <- expm(F tau) S` via the table, where `S` holds
+    /// The sensitivity `S <- expm(F tau) S` via the table (`s` holds `S`
+    /// transposed, see `sens_level`), where `S` holds
     /// `d z_i / d theta_j` for `i, j` over `sens_index` (the physical states and the
     /// parameter: the oscillator and constant entries of `z` do not depend on
     /// the initial state or the parameter, so their rows of `S` are zero and
-    /// only that block of each level matrix, `sub_levels`, acts).  `tmp` is scratch of
-    /// the same shape.
+    /// only that block of each level matrix acts; its parameter row is a row
+    /// of the identity, so the parameter row of `S` stays as it is).  From
+    /// the packed levels (`sens_level`).  `tmp` is scratch of the same shape.
     pub fn prop_sens(td: &TopoData, m: u64, s: &mut Mat, tmp: &mut Mat) {
+        let len = td.packed_len();
         for b in set_bits_down(m) {
-            td.sub_levels[b].mul_into(s, tmp);
+            sens_level(&td.packed[b * len..(b + 1) * len], td.nx, td.n_osc, s, tmp);
             std::mem::swap(s, tmp);
         }
     }
@@ -884,7 +1004,8 @@ impl Engine {
         let mut pieces = Vec::with_capacity(steps_hint + steps_hint / 8 + 8);
         let mut knots = Vec::with_capacity(steps_hint);
         let mut td = self.settle(&mut on, &z, spec.t0_s, &mut events, None)?;
-        // Sensitivity of (x, p) to (x0, p0): rows and columns over `sub`.
+        // Sensitivity of (x, p) to (x0, p0): rows and columns over `sub`,
+        // held transposed (see `sens_level`).
         let sub = self.sens_index();
         let na = sub.len();
         let mut sens = if spec.sensitivity {
@@ -1069,14 +1190,15 @@ impl Engine {
                         if cf.abs() > 1e-300 {
                             // S += (f+ - f-) (c^T S) / (c^T f-), over `sub`
                             // (f+ - f- is zero outside the physical states).
+                            // (`s` is `S^T`: `S[k][j]` is `s[j][k]`.)
                             let cs: Vec<f64> = (0..na)
-                                .map(|j| (0..na).map(|k| c[sub[k]] * s.at(k, j)).sum())
+                                .map(|j| (0..na).map(|k| c[sub[k]] * s.at(j, k)).sum())
                                 .collect();
                             for (i, &zi) in sub.iter().enumerate() {
                                 let d = (f_new[zi] - f_old[zi]) / cf;
                                 if d != 0.0 {
                                     for (j, csj) in cs.iter().enumerate() {
-                                        s.add_at(i, j, d * csj);
+                                        s.add_at(j, i, d * csj);
                                     }
                                 }
                             }
@@ -1181,12 +1303,12 @@ impl Engine {
                 let mut m = Mat::zeros(nx, nx);
                 for i in 0..nx {
                     for j in 0..nx {
-                        m.set(i, j, s.at(i, j));
+                        m.set(i, j, s.at(j, i));
                     }
                 }
                 m
             }),
-            dx_dparam: sens.map(|s| (0..nx).map(|i| s.at(i, nx)).collect()),
+            dx_dparam: sens.map(|s| s.row(nx)[..nx].to_vec()),
             pieces,
             events,
             knots,
