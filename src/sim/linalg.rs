@@ -70,14 +70,16 @@ impl Mat {
         mul_kernel(self, other, out, None);
     }
 
-    /// `mul_into` where row `k` of `other` is zero outside the columns
-    /// `ranges[k].0 .. ranges[k].1` (the structure of a state matrix's
-    /// powers: the oscillator rows are zero outside their pair, the
-    /// parameter and constant rows zero): only those columns are added, so
-    /// the result is `mul_into`'s bit for bit when the structure holds.
+    /// `mul_into` for square matrices where row `k` of `other`, and of
+    /// `self`, is zero outside the columns `ranges[k].0 .. ranges[k].1` (the
+    /// structure of a state matrix's powers: the oscillator rows are zero
+    /// outside their pair, the parameter and constant rows zero): only those
+    /// terms are added, so the result is `mul_into`'s bit for bit when the
+    /// structure holds.
     pub fn mul_into_ranges(&self, other: &Mat, out: &mut Mat, ranges: &[(usize, usize)]) {
         debug_assert_eq!(self.cols, other.rows);
         debug_assert_eq!(ranges.len(), other.rows);
+        debug_assert_eq!(ranges.len(), self.rows);
         debug_assert_eq!((out.rows, out.cols), (self.rows, other.cols));
         mul_kernel(self, other, out, Some(ranges));
     }
@@ -173,14 +175,16 @@ fn mul_rows<const W: usize>(
     o: &mut [f64],
     ranges: Option<&[(usize, usize)]>,
 ) {
-    for (orow, arow) in o.chunks_exact_mut(W).zip(ad.chunks_exact(ac)) {
+    for (i, (orow, arow)) in o.chunks_exact_mut(W).zip(ad.chunks_exact(ac)).enumerate() {
         let mut acc = [0.0f64; W];
-        for (k, (&x, brow)) in arow.iter().zip(bd.chunks_exact(W)).enumerate() {
+        let (lo, hi) = ranges.map_or((0, ac), |r| r[i]);
+        let terms = arow[lo..hi].iter().zip(bd[lo * W..].chunks_exact(W));
+        for (k, (&x, brow)) in terms.enumerate() {
             if x == 0.0 {
                 continue;
             }
             if let Some(r) = ranges {
-                if r[k].0 >= r[k].1 {
+                if r[lo + k].0 >= r[lo + k].1 {
                     continue;
                 }
             }
