@@ -689,7 +689,7 @@ impl Engine {
     pub fn key(on: &[bool]) -> u64 {
         on.iter()
             .enumerate()
-            .fold(0u64, |k, (i, &b)| if b { k | (1 << i) } else { k })
+            .fold(0u64, |k, (i, &b)| k | ((b as u64) << i))
     }
 
     pub fn on_from_key(&self, key: u64) -> Vec<bool> {
@@ -811,7 +811,7 @@ impl Engine {
 
     /// `out = L_b z` for the level of tick bit `b` (`Self::level(td, b)`
     /// times `z`, by the packed structure).
-    #[inline]
+    #[inline(always)]
     fn apply(td: &TopoData, b: usize, z: &[f64], out: &mut [f64]) {
         let len = td.packed_len();
         apply_level(&td.packed[b * len..(b + 1) * len], td.nx, z, out);
