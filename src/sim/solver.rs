@@ -168,12 +168,15 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
     Some(table)
 }
 
+/// Columns `lo .. hi` of a row (see `nonzero_ranges`).
+pub type ColRange = (usize, usize);
+
 /// For each row `k` of `f`: the columns `lo .. hi` outside which row `k`
 /// of every power `f^j`, `j >= 1`, is zero (the hull of the columns reachable
 /// from `k` by a path of nonzero entries), and the same with `k` itself
 /// added (the rows of `I + ...`).  An empty row is `(0, 0)`.  Exact: an
 /// entry outside is a sum of products each with an exact zero factor.
-pub fn nonzero_ranges(f: &Mat) -> (Vec<(usize, usize)>, Vec<(usize, usize)>) {
+pub fn nonzero_ranges(f: &Mat) -> (Vec<ColRange>, Vec<ColRange>) {
     let n = f.rows;
     // reach[k * n + j]: a path of length >= 1 from k to j.
     let mut reach: Vec<bool> = f.data.iter().map(|x| *x != 0.0).collect();
