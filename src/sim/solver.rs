@@ -1626,22 +1626,30 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f6
     // level, so that the midpoint value is one dot product instead of a
     // matrix-vector product and a dot product (the same value but for
     // rounding: `(r L) z` against `r (L z)`).
-    let mut rows: KeyMap<(Vec<f64>, Vec<LevelRow>)> = KeyMap::default();
+    // (Found by key when the topology changes, else the previous piece's.)
+    let mut rows: Vec<(u64, Vec<f64>, Vec<LevelRow>)> = Vec::new();
     let n = run.pieces.first().map_or(0, |p| p.z.len());
     let (mut z_mid, mut tmp, mut z_end) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
-    let mut last: Option<(u64, Arc<TopoData>)> = None;
+    let mut last: Option<(u64, Arc<TopoData>, usize)> = None;
+    // The start value of the next piece when it is in the same topology:
+    // the end value just computed (the same row and state).
+    let mut carry: Option<f64> = None;
     for (i, p) in run.pieces.iter().enumerate() {
-        let td = match &last {
-            Some((k, td)) if *k == p.key => td.clone(),
-            _ => {
-                let td = eng.topo_key(p.key)?;
-                last = Some((p.key, td.clone()));
-                td
-            }
+        if last.as_ref().is_none_or(|l| l.0 != p.key) {
+            let td = eng.topo_key(p.key)?;
+            let e = match rows.iter().position(|r| r.0 == p.key) {
+                Some(e) => e,
+                None => {
+                    rows.push((p.key, (rule.row)(&td.topo), Vec::new()));
+                    rows.len() - 1
+                }
+            };
+            last = Some((p.key, td, e));
+        }
+        let Some((_, td, e)) = &last else {
+            unreachable!()
         };
-        let (row, at_level) = rows
-            .entry(p.key)
-            .or_insert_with(|| ((rule.row)(&td.topo), Vec::new()));
+        let (_, row, at_level) = &mut rows[*e];
         let m = eng.ticks(p.dt_s);
         let half = m / 2;
         let v_mid = if half != 0 && half.is_power_of_two() {
@@ -1649,23 +1657,32 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f6
             let pos = match at_level.iter().position(|(lb, _)| *lb == b) {
                 Some(k) => k,
                 None => {
-                    at_level.push((b, row_times(row, Engine::level(&td, b))));
+                    at_level.push((b, row_times(row, Engine::level(td, b))));
                     at_level.len() - 1
                 }
             };
             dot(&at_level[pos].1, &p.z)
         } else {
-            Engine::prop_vec_into(&td, half, &p.z, &mut z_mid, &mut tmp);
+            Engine::prop_vec_into(td, half, &p.z, &mut z_mid, &mut tmp);
             dot(row, &z_mid)
         };
+        let v_start = match carry.take() {
+            Some(v) => v,
+            None => dot(row, &p.z),
+        };
         let v_end = match run.pieces.get(i + 1) {
-            Some(next) => dot(row, &next.z),
+            Some(next) => {
+                let v = dot(row, &next.z);
+                if next.key == p.key {
+                    carry = Some(v);
+                }
+                v
+            }
             None => {
-                Engine::prop_vec_into(&td, m, &p.z, &mut z_end, &mut tmp);
+                Engine::prop_vec_into(td, m, &p.z, &mut z_end, &mut tmp);
                 dot(row, &z_end)
             }
         };
-        let v_start = dot(row, &p.z);
         acc += p.dt_s / 6.0 * (v_start + 4.0 * v_mid + v_end);
         lo = lo.min(v_start).min(v_mid);
         hi = hi.max(v_start).max(v_mid);
