@@ -60,24 +60,28 @@ impl Mat {
     }
 
     /// `out = self * other`, without allocating (`out` has the right shape).
+    /// Each entry sums its terms in the order of the inner index, from +0,
+    /// skipping the zero entries of `self` (a skipped term is a signed zero,
+    /// which leaves such a sum unchanged: the result is the plain product's,
+    /// bit for bit).
     pub fn mul_into(&self, other: &Mat, out: &mut Mat) {
         debug_assert_eq!(self.cols, other.rows);
         debug_assert_eq!((out.rows, out.cols), (self.rows, other.cols));
-        let oc = other.cols;
-        out.data.iter_mut().for_each(|x| *x = 0.0);
-        for i in 0..self.rows {
-            let orow = &mut out.data[i * oc..(i + 1) * oc];
-            for k in 0..self.cols {
-                let a = self.data[i * self.cols + k];
-                if a == 0.0 {
-                    continue;
-                }
-                let brow = &other.data[k * oc..(k + 1) * oc];
-                for (o, b) in orow.iter_mut().zip(brow) {
-                    *o += a * b;
-                }
-            }
-        }
+        mul_kernel(self, other, out, None);
+    }
+
+    /// `mul_into` for square matrices where row `k` of `other`, and of
+    /// `self`, is zero outside the columns `ranges[k].0 .. ranges[k].1` (the
+    /// structure of a state matrix's powers: the oscillator rows are zero
+    /// outside their pair, the parameter and constant rows zero): only those
+    /// terms are added, so the result is `mul_into`'s bit for bit when the
+    /// structure holds.
+    pub fn mul_into_ranges(&self, other: &Mat, out: &mut Mat, ranges: &[(usize, usize)]) {
+        debug_assert_eq!(self.cols, other.rows);
+        debug_assert_eq!(ranges.len(), other.rows);
+        debug_assert_eq!(ranges.len(), self.rows);
+        debug_assert_eq!((out.rows, out.cols), (self.rows, other.cols));
+        mul_kernel(self, other, out, Some(ranges));
     }
 
     /// `self * v`.
@@ -88,8 +92,13 @@ impl Mat {
     }
 
     pub fn mul_vec_into(&self, v: &[f64], out: &mut [f64]) {
-        for (i, o) in out.iter_mut().enumerate().take(self.rows) {
-            let row = &self.data[i * self.cols..(i + 1) * self.cols];
+        let c = self.cols;
+        if c == 0 {
+            out.iter_mut().take(self.rows).for_each(|o| *o = 0.0);
+            return;
+        }
+        let v = &v[..c.min(v.len())];
+        for (o, row) in out.iter_mut().zip(self.data.chunks_exact(c)) {
             *o = row.iter().zip(v).map(|(a, b)| a * b).sum();
         }
     }
@@ -133,6 +142,89 @@ impl Mat {
     }
 }
 
+/// `out = a * b` (see `Mat::mul_into`), with the rows of `b` that `ranges`
+/// marks empty skipped.  A row of `out` is summed in registers when it is
+/// at most 16 long (`mul_rows`, one instance per width); the other zeros
+/// that `ranges` marks are added as they are (a signed zero added to such a
+/// sum leaves it unchanged).
+fn mul_kernel(a: &Mat, b: &Mat, out: &mut Mat, ranges: Option<&[(usize, usize)]>) {
+    let (ac, bc) = (a.cols, b.cols);
+    let o = &mut out.data[..a.rows * bc];
+    if ac == 0 || bc == 0 {
+        o.fill(0.0);
+        return;
+    }
+    let ad = &a.data[..a.rows * ac];
+    let bd = &b.data[..ac * bc];
+    macro_rules! widths {
+        ($($w:literal)*) => {
+            match bc {
+                $($w => mul_rows::<$w>(ad, ac, bd, o, ranges),)*
+                _ => mul_rows_any(ad, ac, bd, bc, o, ranges),
+            }
+        };
+    }
+    widths!(1 2 3 4 5 6 7 8 9 10 11 12 13 14 15 16);
+}
+
+/// `mul_kernel` for `b` of `W` columns: each row of `out` in registers.
+fn mul_rows<const W: usize>(
+    ad: &[f64],
+    ac: usize,
+    bd: &[f64],
+    o: &mut [f64],
+    ranges: Option<&[(usize, usize)]>,
+) {
+    for (i, (orow, arow)) in o.chunks_exact_mut(W).zip(ad.chunks_exact(ac)).enumerate() {
+        let mut acc = [0.0f64; W];
+        let (lo, hi) = ranges.map_or((0, ac), |r| r[i]);
+        let terms = arow[lo..hi].iter().zip(bd[lo * W..].chunks_exact(W));
+        for (k, (&x, brow)) in terms.enumerate() {
+            if x == 0.0 {
+                continue;
+            }
+            if let Some(r) = ranges {
+                if r[lo + k].0 >= r[lo + k].1 {
+                    continue;
+                }
+            }
+            for (y, &w) in acc.iter_mut().zip(brow) {
+                *y += x * w;
+            }
+        }
+        orow.copy_from_slice(&acc);
+    }
+}
+
+/// `mul_kernel` for any width, summing in `out`.
+fn mul_rows_any(
+    ad: &[f64],
+    ac: usize,
+    bd: &[f64],
+    bc: usize,
+    o: &mut [f64],
+    ranges: Option<&[(usize, usize)]>,
+) {
+    o.fill(0.0);
+    for (orow, arow) in o.chunks_exact_mut(bc).zip(ad.chunks_exact(ac)) {
+        for (k, (&x, brow)) in arow.iter().zip(bd.chunks_exact(bc)).enumerate() {
+            if x == 0.0 {
+                continue;
+            }
+            let (lo, hi) = match ranges {
+                Some(r) => r[k],
+                None => (0, bc),
+            };
+            if lo >= hi {
+                continue;
+            }
+            for (y, &w) in orow[lo..hi].iter_mut().zip(&brow[lo..hi]) {
+                *y += x * w;
+            }
+        }
+    }
+}
+
 /// LU factorisation with partial pivoting of a square matrix.
 #[derive(Debug, Clone)]
 pub struct Lu {
@@ -168,12 +260,14 @@ impl Lu {
                 piv.swap(k, p);
             }
             let d = lu[k * n + k];
-            for i in k + 1..n {
-                let f = lu[i * n + k] / d;
-                lu[i * n + k] = f;
+            let (head, tail) = lu.split_at_mut((k + 1) * n);
+            let pivot_row = &head[k * n + k + 1..];
+            for row in tail.chunks_exact_mut(n) {
+                let f = row[k] / d;
+                row[k] = f;
                 if f != 0.0 {
-                    for j in k + 1..n {
-                        lu[i * n + j] -= f * lu[k * n + j];
+                    for (x, &p) in row[k + 1..].iter_mut().zip(pivot_row) {
+                        *x -= f * p;
                     }
                 }
             }
@@ -202,20 +296,49 @@ impl Lu {
         x
     }
 
-    /// Solve `A X = B` column by column.
+    /// Solve `A X = B`: each column as `solve` would (the same operations
+    /// in the same order), all columns at once by row operations.
     pub fn solve_mat(&self, b: &Mat) -> Mat {
-        let mut out = Mat::zeros(b.rows, b.cols);
-        let mut col = vec![0.0; b.rows];
-        for c in 0..b.cols {
-            for r in 0..b.rows {
-                col[r] = b.at(r, c);
-            }
-            let x = self.solve(&col);
-            for r in 0..b.rows {
-                out.set(r, c, x[r]);
+        let n = self.n;
+        let w = b.cols;
+        let mut x = Mat::zeros(n, w);
+        if w == 0 {
+            return x;
+        }
+        for (i, &p) in self.piv.iter().enumerate() {
+            x.row_mut(i).copy_from_slice(b.row(p));
+        }
+        for i in 0..n {
+            let (done, rest) = x.data.split_at_mut(i * w);
+            let xi = &mut rest[..w];
+            for (j, xj) in done.chunks_exact(w).enumerate() {
+                let l = self.lu[i * n + j];
+                if l == 0.0 {
+                    continue;
+                }
+                for (s, v) in xi.iter_mut().zip(xj) {
+                    *s -= l * v;
+                }
             }
         }
-        out
+        for i in (0..n).rev() {
+            let (head, tail) = x.data.split_at_mut((i + 1) * w);
+            let xi = &mut head[i * w..];
+            for (j, xj) in tail.chunks_exact(w).enumerate() {
+                let u = self.lu[i * n + i + 1 + j];
+                if u == 0.0 {
+                    continue;
+                }
+                for (s, v) in xi.iter_mut().zip(xj) {
+                    *s -= u * v;
+                }
+            }
+            let d = self.lu[i * n + i];
+            for s in xi.iter_mut() {
+                *s /= d;
+            }
+        }
+        x
     }
 }
 

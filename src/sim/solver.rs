@@ -114,11 +114,16 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
         }
     }
     let a = f.scale(h_s / 2f64.powi(finest_level as i32));
+    // Where the rows of every power of F (and so of every D) can be
+    // nonzero, and of I + such a sum (`nonzero_ranges`): the products below
+    // skip the rest (the oscillator rows are zero outside their pair, the
+    // parameter and constant rows zero), bit for bit the full products.
+    let (ranges, ranges_i) = nonzero_ranges(f);
     // D = A + A^2/2! + ... + A^6/6!  (Horner: A (I + A/2 (I + A/3 (... (I + A/6))))).
     let mut d = Mat::identity(n);
     let mut tmp = Mat::zeros(n, n);
     for k in (2..=6).rev() {
-        a.mul_into(&d, &mut tmp);
+        a.mul_into_ranges(&d, &mut tmp, &ranges_i);
         let inv = 1.0 / k as f64;
         for (o, x) in d.data.iter_mut().zip(&tmp.data) {
             *o = x * inv;
@@ -127,36 +132,78 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
             d.data[i * n + i] += 1.0;
         }
     }
-    a.mul_into(&d, &mut tmp);
+    a.mul_into_ranges(&d, &mut tmp, &ranges_i);
     std::mem::swap(&mut d, &mut tmp);
     let mut table: Vec<Mat> = Vec::with_capacity(TABLE_LEVELS + 1);
     let mut level = finest_level;
-    let push = |d: &Mat, table: &mut Vec<Mat>| -> bool {
+    // (A level that is not finite leaves every coarser one not finite in
+    // the same entry, `2 D + D^2` keeping its `2 D` term: only the last is
+    // checked.)
+    let push = |d: &Mat, table: &mut Vec<Mat>| {
         let mut e = d.clone();
         for k in 0..n {
             e.data[k * n + k] += 1.0;
         }
-        let ok = e.data.iter().all(|x| x.is_finite());
         table.push(e);
-        ok
     };
-    if level == TABLE_LEVELS && !push(&d, &mut table) {
-        return None;
+    if level == TABLE_LEVELS {
+        push(&d, &mut table);
     }
     while level > 0 {
-        d.mul_into(&d, &mut tmp);
+        d.mul_into_ranges(&d, &mut tmp, &ranges);
         for (o, x) in tmp.data.iter_mut().zip(&d.data) {
             *o += 2.0 * x;
         }
         std::mem::swap(&mut d, &mut tmp);
         level -= 1;
-        if level <= TABLE_LEVELS && !push(&d, &mut table) {
-            return None;
+        if level <= TABLE_LEVELS {
+            push(&d, &mut table);
         }
+    }
+    if !table.last()?.data.iter().all(|x| x.is_finite()) {
+        return None;
     }
     // Built finest first; the table is indexed coarsest first.
     table.reverse();
     Some(table)
+}
+
+/// Columns `lo .. hi` of a row (see `nonzero_ranges`).
+pub type ColRange = (usize, usize);
+
+/// For each row `k` of `f`: the columns `lo .. hi` outside which row `k`
+/// of every power `f^j`, `j >= 1`, is zero (the hull of the columns reachable
+/// from `k` by a path of nonzero entries), and the same with `k` itself
+/// added (the rows of `I + ...`).  An empty row is `(0, 0)`.  Exact: an
+/// entry outside is a sum of products each with an exact zero factor.
+pub fn nonzero_ranges(f: &Mat) -> (Vec<ColRange>, Vec<ColRange>) {
+    let n = f.rows;
+    // reach[k * n + j]: a path of length >= 1 from k to j.
+    let mut reach: Vec<bool> = f.data.iter().map(|x| *x != 0.0).collect();
+    for m in 0..n {
+        for k in 0..n {
+            if reach[k * n + m] {
+                for j in 0..n {
+                    if reach[m * n + j] {
+                        reach[k * n + j] = true;
+                    }
+                }
+            }
+        }
+    }
+    let hull = |k: usize, with_k: bool| -> (usize, usize) {
+        let row = &reach[k * n..(k + 1) * n];
+        let lo = (0..n).find(|&j| row[j] || (with_k && j == k));
+        let hi = (0..n).rev().find(|&j| row[j] || (with_k && j == k));
+        match (lo, hi) {
+            (Some(l), Some(h)) => (l, h + 1),
+            _ => (0, 0),
+        }
+    };
+    (
+        (0..n).map(|k| hull(k, false)).collect(),
+        (0..n).map(|k| hull(k, true)).collect(),
+    )
 }
 
 /// Levels of the dyadic table: times are resolved to `h / 2^TABLE_LEVELS`
@@ -189,9 +236,248 @@ pub struct TopoData {
     pub cond: Vec<Vec<f64>>,
     /// `up[c] = expm(F h 2^c)`, c = 0..=COARSE_LEVELS (squarings of the step).
     pub up: Vec<Mat>,
-    /// Each level's block over the physical states and the parameter (the
-    /// sensitivity's rows and columns, see `prop_sens`), indexed by tick bit.
-    pub sub_levels: Vec<Mat>,
+    /// Every level (tick bit `b` = 0 ..= TABLE_LEVELS + COARSE_LEVELS) packed
+    /// for `apply_level`: the rows of the physical states by columns, then
+    /// each oscillator pair's 2 x 2 block (row-major).  The rest of a level
+    /// is structural: an oscillator row is zero outside its pair (its
+    /// state-matrix rows are the rotation alone) and the parameter and
+    /// constant rows are rows of the identity.
+    packed: Vec<f64>,
+    /// Physical states and oscillator pairs (the packing's shape).
+    nx: usize,
+    n_osc: usize,
+}
+
+impl TopoData {
+    /// Length of one packed level.
+    fn packed_len(&self) -> usize {
+        packed_len(self.nx, self.n_osc)
+    }
+}
+
+fn packed_len(nx: usize, n_osc: usize) -> usize {
+    nx * (nx + 2 * n_osc + 2) + 4 * n_osc
+}
+
+/// Pack a level matrix (see `TopoData::packed`); in debug builds, check
+/// that what is left out is the structure it is taken to be.
+fn pack_level(m: &Mat, nx: usize, n_osc: usize, out: &mut Vec<f64>) {
+    let nz = m.cols;
+    debug_assert_eq!(nz, nx + 2 * n_osc + 2);
+    let d = &m.data[..nz * nz];
+    let start = out.len();
+    out.resize(start + nx * nz, 0.0);
+    let cols = &mut out[start..];
+    for (i, row) in d.chunks_exact(nz).take(nx).enumerate() {
+        for (c, &v) in cols.chunks_exact_mut(nx).zip(row) {
+            c[i] = v;
+        }
+    }
+    for q in 0..n_osc {
+        let c = nx + 2 * q;
+        let r0 = &d[c * nz + c..c * nz + c + 2];
+        let r1 = &d[(c + 1) * nz + c..(c + 1) * nz + c + 2];
+        out.extend([r0[0], r0[1], r1[0], r1[1]]);
+    }
+    if cfg!(debug_assertions) {
+        for i in nx..nz {
+            for j in 0..nz {
+                let in_pair = i < nz - 2 && j >= nx && (j - nx) / 2 == (i - nx) / 2;
+                if !in_pair {
+                    let want = if i >= nz - 2 && i == j { 1.0 } else { 0.0 };
+                    debug_assert!(m.at(i, j) == want, "level structure at ({i}, {j})");
+                }
+            }
+        }
+    }
+}
+
+/// Rows `r0 .. r0 + R` of the physical block `xb` (stored by columns of
+/// `nx`) times `z`, into `out` (`R` long): each entry's terms in column
+/// order, the first one not added to anything (`-0 + x` is `x`).
+#[inline(always)]
+fn rows_times<const R: usize>(xb: &[f64], nx: usize, r0: usize, z: &[f64], out: &mut [f64]) {
+    let mut acc = [0.0f64; R];
+    let mut cols = xb.chunks_exact(nx).zip(z);
+    if let Some((c, &zj)) = cols.next() {
+        for (a, &cv) in acc.iter_mut().zip(&c[r0..r0 + R]) {
+            *a = cv * zj;
+        }
+    }
+    for (c, &zj) in cols {
+        for (a, &cv) in acc.iter_mut().zip(&c[r0..r0 + R]) {
+            *a += cv * zj;
+        }
+    }
+    out.copy_from_slice(&acc);
+}
+
+/// `S <- L S` for the sensitivity `S` (rows and columns over the physical
+/// states and the parameter, see `Engine::prop_sens`), held transposed
+/// (`st` is `S^T`, so a column of `S` is a row of `st`), and the block of
+/// the packed level `lv` over the same rows and columns: per column of `S`,
+/// the physical rows in blocks of 4, 2 and 1 in registers, column after
+/// column of the level.  Each entry sums its terms in the order of
+/// `Mat::mul_into` of that block (from +0, the physical columns, then the
+/// parameter's; the zero terms `mul_into` skips leave such a sum
+/// unchanged), so the result is that product's bit for bit; the parameter
+/// row of `S` is kept (that row of the block is `[0 .. 0 1]`).
+fn sens_level(lv: &[f64], nx: usize, n_osc: usize, st: &Mat, out: &mut Mat) {
+    macro_rules! fixed {
+        ($($n:literal)*) => {
+            match nx {
+                $($n => sens_fixed::<$n>(lv, n_osc, st, out),)*
+                _ => sens_any(lv, nx, n_osc, st, out),
+            }
+        };
+    }
+    fixed!(1 2 3 4 5 6 7 8 9 10 11 12);
+}
+
+/// `sens_level` for `NX` physical states: a column's sums all in registers.
+fn sens_fixed<const NX: usize>(lv: &[f64], n_osc: usize, st: &Mat, out: &mut Mat) {
+    let na = NX + 1;
+    let xcols = &lv[..NX * NX];
+    let pcol = &lv[(NX + 2 * n_osc) * NX..(NX + 2 * n_osc + 1) * NX];
+    for (s, o) in st.data.chunks_exact(na).zip(out.data.chunks_exact_mut(na)) {
+        let mut acc = [0.0f64; NX];
+        for (c, &sk) in xcols.chunks_exact(NX).zip(s) {
+            for (a, &cv) in acc.iter_mut().zip(c) {
+                *a += cv * sk;
+            }
+        }
+        let sp = s[NX];
+        for (a, &cv) in acc.iter_mut().zip(pcol) {
+            *a += cv * sp;
+        }
+        o[..NX].copy_from_slice(&acc);
+        o[NX] = sp;
+    }
+}
+
+/// `sens_level` for any number of physical states.
+fn sens_any(lv: &[f64], nx: usize, n_osc: usize, st: &Mat, out: &mut Mat) {
+    let na = nx + 1;
+    debug_assert_eq!((st.rows, st.cols, out.rows, out.cols), (na, na, na, na));
+    let xcols = &lv[..nx * nx];
+    // The parameter's column of the level: the packed column `nz - 2`.
+    let pcol = &lv[(nx + 2 * n_osc) * nx..(nx + 2 * n_osc + 1) * nx];
+    for (s, o) in st.data.chunks_exact(na).zip(out.data.chunks_exact_mut(na)) {
+        let (o_x, o_p) = o.split_at_mut(nx);
+        let mut r0 = 0;
+        while r0 + 4 <= nx {
+            sens_rows::<4>(xcols, pcol, nx, r0, s, &mut o_x[r0..r0 + 4]);
+            r0 += 4;
+        }
+        if r0 + 2 <= nx {
+            sens_rows::<2>(xcols, pcol, nx, r0, s, &mut o_x[r0..r0 + 2]);
+            r0 += 2;
+        }
+        if r0 < nx {
+            sens_rows::<1>(xcols, pcol, nx, r0, s, &mut o_x[r0..r0 + 1]);
+        }
+        o_p[0] = s[nx];
+    }
+}
+
+/// Rows `r0 .. r0 + R` of `sens_level`'s product for one column `s` of `S`.
+#[inline(always)]
+fn sens_rows<const R: usize>(
+    xcols: &[f64],
+    pcol: &[f64],
+    nx: usize,
+    r0: usize,
+    s: &[f64],
+    out: &mut [f64],
+) {
+    let mut acc = [0.0f64; R];
+    for (c, &sk) in xcols.chunks_exact(nx).zip(s) {
+        for (a, &cv) in acc.iter_mut().zip(&c[r0..r0 + R]) {
+            *a += cv * sk;
+        }
+    }
+    let sp = s[nx];
+    for (a, &cv) in acc.iter_mut().zip(&pcol[r0..r0 + R]) {
+        *a += cv * sp;
+    }
+    out.copy_from_slice(&acc);
+}
+
+/// `out = L z` for a packed level `lv` (see `TopoData::packed`): each entry
+/// sums its terms in the order of `Mat::mul_vec_into` with the structural
+/// zeros left out, so the value is the full product's (bit for bit, but for
+/// the sign of a zero).
+/// (One instance per number of physical states up to 12, the sums of all
+/// the physical rows in registers; beyond, blocks of 4, 2 and 1 rows.)
+#[inline]
+fn apply_level(lv: &[f64], nx: usize, z: &[f64], out: &mut [f64]) {
+    macro_rules! fixed {
+        ($($n:literal)*) => {
+            match nx {
+                $($n => apply_fixed::<$n>(lv, z, out),)*
+                _ => apply_any(lv, nx, z, out),
+            }
+        };
+    }
+    fixed!(1 2 3 4 5 6 7 8 9 10 11 12);
+}
+
+/// `apply_level` for `NX` physical states.
+fn apply_fixed<const NX: usize>(lv: &[f64], z: &[f64], out: &mut [f64]) {
+    let nz = z.len();
+    let (xb, osc) = lv.split_at(NX * nz);
+    let mut acc = [0.0f64; NX];
+    let mut cols = xb.chunks_exact(NX).zip(z);
+    if let Some((c, &zj)) = cols.next() {
+        for (a, &cv) in acc.iter_mut().zip(c) {
+            *a = cv * zj;
+        }
+    }
+    for (c, &zj) in cols {
+        for (a, &cv) in acc.iter_mut().zip(c) {
+            *a += cv * zj;
+        }
+    }
+    out[..NX].copy_from_slice(&acc);
+    apply_rest(osc, NX, z, out);
+}
+
+/// The oscillator pairs and the parameter and constant rows of `apply_level`.
+#[inline(always)]
+fn apply_rest(osc: &[f64], nx: usize, z: &[f64], out: &mut [f64]) {
+    let nz = z.len();
+    let (o_osc, o_pc) = out[nx..nz].split_at_mut(nz - nx - 2);
+    let z_osc = &z[nx..nz - 2];
+    for ((o, zz), blk) in o_osc
+        .chunks_exact_mut(2)
+        .zip(z_osc.chunks_exact(2))
+        .zip(osc.chunks_exact(4))
+    {
+        o[0] = blk[0] * zz[0] + blk[1] * zz[1];
+        o[1] = blk[2] * zz[0] + blk[3] * zz[1];
+    }
+    o_pc.copy_from_slice(&z[nz - 2..]);
+}
+
+/// `apply_level` for any number of physical states.
+fn apply_any(lv: &[f64], nx: usize, z: &[f64], out: &mut [f64]) {
+    let nz = z.len();
+    let (xb, osc) = lv.split_at(nx * nz);
+    // The physical rows in blocks of 4, 2 and 1, each block's sums in
+    // registers, column after column.
+    let mut r0 = 0;
+    while r0 + 4 <= nx {
+        rows_times::<4>(xb, nx, r0, z, &mut out[r0..r0 + 4]);
+        r0 += 4;
+    }
+    if r0 + 2 <= nx {
+        rows_times::<2>(xb, nx, r0, z, &mut out[r0..r0 + 2]);
+        r0 += 2;
+    }
+    if r0 < nx {
+        rows_times::<1>(xb, nx, r0, z, &mut out[r0..r0 + 1]);
+    }
+    apply_rest(osc, nx, z, out);
 }
 
 /// Length of the state `z` held inline by [`ZVec`]; longer states go to the heap.
@@ -420,7 +706,7 @@ impl Engine {
     pub fn key(on: &[bool]) -> u64 {
         on.iter()
             .enumerate()
-            .fold(0u64, |k, (i, &b)| if b { k | (1 << i) } else { k })
+            .fold(0u64, |k, (i, &b)| k | ((b as u64) << i))
     }
 
     pub fn on_from_key(&self, key: u64) -> Vec<bool> {
@@ -453,27 +739,21 @@ impl Engine {
             let m = up[c].mul(&up[c]);
             up.push(m);
         }
-        let sub = self.sens_index();
-        let na = sub.len();
-        let sub_levels = (0..=TABLE_LEVELS + COARSE_LEVELS)
-            .map(|b| {
-                let lv = level_of(&table, &up, b);
-                let mut m = Mat::zeros(na, na);
-                for (i, &zi) in sub.iter().enumerate() {
-                    for (k, &zk) in sub.iter().enumerate() {
-                        m.data[i * na + k] = lv.at(zi, zk);
-                    }
-                }
-                m
-            })
-            .collect();
+        let (nx, n_osc) = (self.circuit.n_x(), self.circuit.osc_omega.len());
+        let mut packed =
+            Vec::with_capacity(packed_len(nx, n_osc) * (TABLE_LEVELS + COARSE_LEVELS + 1));
+        for b in 0..=TABLE_LEVELS + COARSE_LEVELS {
+            pack_level(level_of(&table, &up, b), nx, n_osc, &mut packed);
+        }
         let d = Arc::new(TopoData {
             topo,
             step,
             table,
             cond,
             up,
-            sub_levels,
+            packed,
+            nx,
+            n_osc,
         });
         if self.cache.len() < 4096 {
             self.cache.insert(key, d.clone());
@@ -541,20 +821,31 @@ impl Engine {
     pub fn prop_vec_into(td: &TopoData, m: u64, z: &[f64], out: &mut Vec<f64>, tmp: &mut Vec<f64>) {
         out.copy_from_slice(z);
         for b in set_bits_down(m) {
-            Self::level(td, b).mul_vec_into(out, tmp);
+            Self::apply(td, b, out, tmp);
             std::mem::swap(out, tmp);
         }
     }
 
-    /// The sensitivity `S <- expm(F tau) S` via the table, where `S` holds
+    /// `out = L_b z` for the level of tick bit `b` (`Self::level(td, b)`
+    /// times `z`, by the packed structure).
+    #[inline(always)]
+    fn apply(td: &TopoData, b: usize, z: &[f64], out: &mut [f64]) {
+        let len = td.packed_len();
+        apply_level(&td.packed[b * len..(b + 1) * len], td.nx, z, out);
+    }
+
+    /// The sensitivity `S <- expm(F tau) S` via the table (`s` holds `S`
+    /// transposed, see `sens_level`), where `S` holds
     /// `d z_i / d theta_j` for `i, j` over `sens_index` (the physical states and the
     /// parameter: the oscillator and constant entries of `z` do not depend on
     /// the initial state or the parameter, so their rows of `S` are zero and
-    /// only that block of each level matrix, `sub_levels`, acts).  `tmp` is scratch of
-    /// the same shape.
+    /// only that block of each level matrix acts; its parameter row is a row
+    /// of the identity, so the parameter row of `S` stays as it is).  From
+    /// the packed levels (`sens_level`).  `tmp` is scratch of the same shape.
     pub fn prop_sens(td: &TopoData, m: u64, s: &mut Mat, tmp: &mut Mat) {
+        let len = td.packed_len();
         for b in set_bits_down(m) {
-            td.sub_levels[b].mul_into(s, tmp);
+            sens_level(&td.packed[b * len..(b + 1) * len], td.nx, td.n_osc, s, tmp);
             std::mem::swap(s, tmp);
         }
     }
@@ -757,7 +1048,8 @@ impl Engine {
         let mut pieces = Vec::with_capacity(steps_hint + steps_hint / 8 + 8);
         let mut knots = Vec::with_capacity(steps_hint);
         let mut td = self.settle(&mut on, &z, spec.t0_s, &mut events, None)?;
-        // Sensitivity of (x, p) to (x0, p0): rows and columns over `sub`.
+        // Sensitivity of (x, p) to (x0, p0): rows and columns over `sub`,
+        // held transposed (see `sens_level`).
         let sub = self.sens_index();
         let na = sub.len();
         let mut sens = if spec.sensitivity {
@@ -942,14 +1234,15 @@ impl Engine {
                         if cf.abs() > 1e-300 {
                             // S += (f+ - f-) (c^T S) / (c^T f-), over `sub`
                             // (f+ - f- is zero outside the physical states).
+                            // (`s` is `S^T`: `S[k][j]` is `s[j][k]`.)
                             let cs: Vec<f64> = (0..na)
-                                .map(|j| (0..na).map(|k| c[sub[k]] * s.at(k, j)).sum())
+                                .map(|j| (0..na).map(|k| c[sub[k]] * s.at(j, k)).sum())
                                 .collect();
                             for (i, &zi) in sub.iter().enumerate() {
                                 let d = (f_new[zi] - f_old[zi]) / cf;
                                 if d != 0.0 {
                                     for (j, csj) in cs.iter().enumerate() {
-                                        s.add_at(i, j, d * csj);
+                                        s.add_at(j, i, d * csj);
                                     }
                                 }
                             }
@@ -1054,12 +1347,12 @@ impl Engine {
                 let mut m = Mat::zeros(nx, nx);
                 for i in 0..nx {
                     for j in 0..nx {
-                        m.set(i, j, s.at(i, j));
+                        m.set(i, j, s.at(j, i));
                     }
                 }
                 m
             }),
-            dx_dparam: sens.map(|s| (0..nx).map(|i| s.at(i, nx)).collect()),
+            dx_dparam: sens.map(|s| s.row(nx)[..nx].to_vec()),
             pieces,
             events,
             knots,
@@ -1221,7 +1514,7 @@ impl Engine {
             if lo + step >= m_dt {
                 continue;
             }
-            Self::level(td, b).mul_vec_into(&z_lo, &mut tmp);
+            Self::apply(td, b, &z_lo, &mut tmp);
             if sgn * dot(c, &tmp) > 0.0 {
                 lo += step;
                 std::mem::swap(&mut z_lo, &mut tmp);
@@ -1229,12 +1522,14 @@ impl Engine {
         }
         // One finest tick past the last good point.
         let hi = (lo + 1).min(m_dt);
-        let z_hi = if hi == m_dt {
-            Self::prop_vec(td, m_dt, z)
+        if hi == m_dt {
+            let mut out = vec![0.0; z.len()];
+            Self::prop_vec_into(td, m_dt, z, &mut out, &mut tmp);
+            (self.tick_time(hi), out)
         } else {
-            Self::prop_vec(td, 1, &z_lo)
-        };
-        (self.tick_time(hi), z_hi)
+            Self::apply(td, 0, &z_lo, &mut tmp);
+            (self.tick_time(hi), tmp)
+        }
     }
 
     /// The state at the four Gauss-Legendre nodes of a recorded piece, as
@@ -1372,22 +1667,30 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f6
     // level, so that the midpoint value is one dot product instead of a
     // matrix-vector product and a dot product (the same value but for
     // rounding: `(r L) z` against `r (L z)`).
-    let mut rows: KeyMap<(Vec<f64>, Vec<LevelRow>)> = KeyMap::default();
+    // (Found by key when the topology changes, else the previous piece's.)
+    let mut rows: Vec<(u64, Vec<f64>, Vec<LevelRow>)> = Vec::new();
     let n = run.pieces.first().map_or(0, |p| p.z.len());
     let (mut z_mid, mut tmp, mut z_end) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
-    let mut last: Option<(u64, Arc<TopoData>)> = None;
+    let mut last: Option<(u64, Arc<TopoData>, usize)> = None;
+    // The start value of the next piece when it is in the same topology:
+    // the end value just computed (the same row and state).
+    let mut carry: Option<f64> = None;
     for (i, p) in run.pieces.iter().enumerate() {
-        let td = match &last {
-            Some((k, td)) if *k == p.key => td.clone(),
-            _ => {
-                let td = eng.topo_key(p.key)?;
-                last = Some((p.key, td.clone()));
-                td
-            }
+        if last.as_ref().is_none_or(|l| l.0 != p.key) {
+            let td = eng.topo_key(p.key)?;
+            let e = match rows.iter().position(|r| r.0 == p.key) {
+                Some(e) => e,
+                None => {
+                    rows.push((p.key, (rule.row)(&td.topo), Vec::new()));
+                    rows.len() - 1
+                }
+            };
+            last = Some((p.key, td, e));
+        }
+        let Some((_, td, e)) = &last else {
+            unreachable!()
         };
-        let (row, at_level) = rows
-            .entry(p.key)
-            .or_insert_with(|| ((rule.row)(&td.topo), Vec::new()));
+        let (_, row, at_level) = &mut rows[*e];
         let m = eng.ticks(p.dt_s);
         let half = m / 2;
         let v_mid = if half != 0 && half.is_power_of_two() {
@@ -1395,23 +1698,32 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f6
             let pos = match at_level.iter().position(|(lb, _)| *lb == b) {
                 Some(k) => k,
                 None => {
-                    at_level.push((b, row_times(row, Engine::level(&td, b))));
+                    at_level.push((b, row_times(row, Engine::level(td, b))));
                     at_level.len() - 1
                 }
             };
             dot(&at_level[pos].1, &p.z)
         } else {
-            Engine::prop_vec_into(&td, half, &p.z, &mut z_mid, &mut tmp);
+            Engine::prop_vec_into(td, half, &p.z, &mut z_mid, &mut tmp);
             dot(row, &z_mid)
         };
+        let v_start = match carry.take() {
+            Some(v) => v,
+            None => dot(row, &p.z),
+        };
         let v_end = match run.pieces.get(i + 1) {
-            Some(next) => dot(row, &next.z),
+            Some(next) => {
+                let v = dot(row, &next.z);
+                if next.key == p.key {
+                    carry = Some(v);
+                }
+                v
+            }
             None => {
-                Engine::prop_vec_into(&td, m, &p.z, &mut z_end, &mut tmp);
+                Engine::prop_vec_into(td, m, &p.z, &mut z_end, &mut tmp);
                 dot(row, &z_end)
             }
         };
-        let v_start = dot(row, &p.z);
         acc += p.dt_s / 6.0 * (v_start + 4.0 * v_mid + v_end);
         lo = lo.min(v_start).min(v_mid);
         hi = hi.max(v_start).max(v_mid);
