@@ -1310,11 +1310,14 @@ fn simulate_with(
         let k = (p.t_s / h_step).round() as usize;
         if use_fft && k < n_grid && (p.t_s - k as f64 * h_step).abs() < 1e-9 * h_step {
             let k1 = (k + 1) % n_grid;
-            for (j, &si) in harm_signals.iter().enumerate() {
-                let knots = &mut seq[j * n_grid..(j + 1) * n_grid];
-                knots[k] += w_end * v_start[si];
-                knots[k1] += w_end * v_end[si];
-                seq[(n_harm + j) * n_grid + k] = w_mid * v_mid[si];
+            let (knots, mids) = seq.split_at_mut(n_harm * n_grid);
+            let runs = knots
+                .chunks_exact_mut(n_grid)
+                .zip(mids.chunks_exact_mut(n_grid));
+            for ((kn, md), &si) in runs.zip(&harm_signals) {
+                kn[k] += w_end * v_start[si];
+                kn[k1] += w_end * v_end[si];
+                md[k] = w_mid * v_mid[si];
             }
         } else {
             let nodes = [
