@@ -382,12 +382,13 @@ fn by_columns(m: &linalg::Mat) -> Vec<f64> {
 
 /// A matrix `m` (rows by the entries of `z`) stored for `out = m z` as
 /// its columns, each cut to the range of rows in which it is not zero
-/// (columns all zero left out): `out` is the sum of the columns, each
+/// (columns all zero left out; the first one kept whole, so that it sets
+/// every row): `out` is the sum of the columns, each
 /// scaled by its entry of `z`, a stream over contiguous rows that
 /// vectorises.  Most probes depend on few entries of `z` (a supply voltage
 /// on the oscillator pair alone, a DC-side signal not on the oscillators;
 /// the constant column is zero with ideal devices): on the drive front end
-/// (26 probes and `q`, 8 entries of `z`) 204 of the 272 entries are
+/// (26 probes and `q`, 8 entries of `z`) 208 of the 272 entries are
 /// streamed.  Each entry sums its terms in the
 /// order of `Mat::mul_vec_into`, the zero ones left out.
 struct Columns {
@@ -408,6 +409,12 @@ impl Columns {
             else {
                 continue;
             };
+            // The first column kept is kept whole: it sets every row.
+            let (lo, hi) = if cols.is_empty() {
+                (0, m.rows - 1)
+            } else {
+                (lo, hi)
+            };
             let start = data.len();
             data.extend((lo..=hi).map(|r| m.at(r, j)));
             cols.push((j, lo, start, data.len()));
@@ -423,8 +430,18 @@ impl Columns {
     #[inline]
     fn mul_into(&self, z: &[f64], out: &mut [f64]) {
         let out = &mut out[..self.rows];
-        out.fill(0.0);
-        for &(j, lo, start, end) in &self.cols {
+        let mut cols = self.cols.iter();
+        match cols.next() {
+            // The first column spans every row (see `new`).
+            Some(&(j, _, start, end)) => {
+                let zj = z[j];
+                for (o, x) in out.iter_mut().zip(&self.data[start..end]) {
+                    *o = zj * x;
+                }
+            }
+            None => out.fill(0.0),
+        }
+        for &(j, lo, start, end) in cols {
             let zj = z[j];
             if zj == 0.0 {
                 continue;
@@ -1822,15 +1839,26 @@ mod tests {
         // to the last entry not zero.
         assert_eq!(k.cols.len(), 4);
         assert_eq!(k.data.len(), 7 + 4 + 6 + 7);
-        for z in [
+        // Rows past the first column's last entry not zero are set too.
+        let mut m0 = m.clone();
+        for r in 4..rows {
+            m0.set(r, 0, 0.0);
+        }
+        let k0 = Columns::new(&m0);
+        assert_eq!(k0.data.len(), 7 + 4 + 6 + 7);
+        let zs = [
             [1.5, -2.25, 3.0, 0.125, -7.0],
             [0.0, 1e-3, -1e6, 2.0, 0.0],
             [-3.0, 0.0, 0.0, 0.0, 4.5],
-        ] {
+        ];
+        for ((mat, kept), z) in [(&m, &k), (&m0, &k0)]
+            .into_iter()
+            .flat_map(|p| zs.iter().map(move |z| (p, z)))
+        {
             let mut dense = vec![0.0; rows];
-            m.mul_vec_into(&z, &mut dense);
+            mat.mul_vec_into(z, &mut dense);
             let mut out = vec![f64::NAN; rows + 2];
-            k.mul_into(&z, &mut out);
+            kept.mul_into(z, &mut out);
             for (a, b) in out[..rows].iter().zip(&dense) {
                 assert_eq!(
                     a.to_bits() & !(1 << 63),
