@@ -381,16 +381,17 @@ fn by_columns(m: &linalg::Mat) -> Vec<f64> {
 }
 
 /// A matrix `m` (rows by the entries of `z`) stored for `out = m z` as
-/// its columns, each cut to the range of rows in which it is not zero
-/// (columns all zero left out; the first one kept whole, so that it sets
-/// every row): `out` is the sum of the columns, each
-/// scaled by its entry of `z`, a stream over contiguous rows that
-/// vectorises.  Most probes depend on few entries of `z` (a supply voltage
-/// on the oscillator pair alone, a DC-side signal not on the oscillators;
-/// the constant column is zero with ideal devices): on the drive front end
-/// (26 probes and `q`, 8 entries of `z`) 208 of the 272 entries are
-/// streamed.  Each entry sums its terms in the
-/// order of `Mat::mul_vec_into`, the zero ones left out.
+/// its columns, each cut to the range of rows in which it is not zero and
+/// widened with zeros to a multiple of four rows (columns all zero left
+/// out; the first one kept whole, so that it sets every row): `out` is the
+/// sum of the columns, each scaled by its entry of `z`, a stream over
+/// contiguous rows that vectorises.  Most probes depend on few entries of
+/// `z` (a supply voltage on the oscillator pair alone, a DC-side signal not
+/// on the oscillators; the constant column is zero with ideal devices): on
+/// the drive front end (26 probes and `q`, 8 entries of `z`) 214 of the 272
+/// entries are streamed.  Each entry sums its terms in the order of
+/// `Mat::mul_vec_into`, the zero ones left out (a zero entry adds a zero
+/// product: the same sums, bit for bit).
 struct Columns {
     rows: usize,
     /// Per column kept: the entry of `z`, its first row, and its run of
@@ -410,11 +411,21 @@ impl Columns {
                 continue;
             };
             // The first column kept is kept whole: it sets every row.
-            let (lo, hi) = if cols.is_empty() {
+            let (mut lo, mut hi) = if cols.is_empty() {
                 (0, m.rows - 1)
             } else {
                 (lo, hi)
             };
+            // Runs of a multiple of four rows (zeros added after, else
+            // before, within the matrix): the vectorised loop then leaves
+            // no rows to a scalar tail.
+            while (hi + 1 - lo) % 4 != 0 && (hi + 1 < m.rows || lo > 0) {
+                if hi + 1 < m.rows {
+                    hi += 1;
+                } else {
+                    lo -= 1;
+                }
+            }
             let start = data.len();
             data.extend((lo..=hi).map(|r| m.at(r, j)));
             cols.push((j, lo, start, data.len()));
@@ -1836,16 +1847,17 @@ mod tests {
         }
         let k = Columns::new(&m);
         // Column 2 is left out; the others keep their rows from the first
-        // to the last entry not zero.
+        // to the last entry not zero, widened to four rows or the whole
+        // column (column 3: rows 0 to 5, widened to all 7).
         assert_eq!(k.cols.len(), 4);
-        assert_eq!(k.data.len(), 7 + 4 + 6 + 7);
+        assert_eq!(k.data.len(), 7 + 4 + 7 + 7);
         // Rows past the first column's last entry not zero are set too.
         let mut m0 = m.clone();
         for r in 4..rows {
             m0.set(r, 0, 0.0);
         }
         let k0 = Columns::new(&m0);
-        assert_eq!(k0.data.len(), 7 + 4 + 6 + 7);
+        assert_eq!(k0.data.len(), 7 + 4 + 7 + 7);
         let zs = [
             [1.5, -2.25, 3.0, 0.125, -7.0],
             [0.0, 1e-3, -1e6, 2.0, 0.0],
