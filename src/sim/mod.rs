@@ -297,12 +297,12 @@ impl OutputForms {
         }
         let mut q = linalg::Mat::zeros(nz, nz);
         let mut add_outer = |a: &[f64], b: &[f64], k: f64| {
-            for (i, ai) in a.iter().enumerate() {
+            for (qi, ai) in q.data.chunks_exact_mut(nz.max(1)).zip(a) {
                 if *ai == 0.0 {
                     continue;
                 }
-                for (j, bj) in b.iter().enumerate() {
-                    q.data[i * nz + j] += k * ai * bj;
+                for (qij, bj) in qi.iter_mut().zip(b) {
+                    *qij += k * ai * bj;
                 }
             }
         };
