@@ -273,12 +273,15 @@ impl WarmStart {
 /// `v` across the element), and `g_min sum v_n v_n^T` over the nodes' leakage
 /// to the reference.
 ///
-/// Both are stacked as one matrix `[c; q]`, stored by columns (see
-/// `OutputForms::eval`).  With them the half-step propagator `table[1]`,
-/// also by columns, for the middle of whole grid steps.
+/// Both are stacked as one matrix `[c; q]` (see `Columns`), so that one
+/// pass over `z` gives every probe and `q z`.  With them the half-step
+/// propagator `table[1]` by columns (see `mul_by_columns`), for the middle
+/// of whole grid steps.
 struct OutputForms {
-    /// Probes, then entries of `q z`, per column of `z`.
-    at: Vec<f64>,
+    /// `[c; q]`.
+    at: Columns,
+    /// Rows of `c`.
+    n_probe: usize,
     /// `table[1]` by columns.
     half: Vec<f64>,
 }
@@ -294,12 +297,12 @@ impl OutputForms {
         }
         let mut q = linalg::Mat::zeros(nz, nz);
         let mut add_outer = |a: &[f64], b: &[f64], k: f64| {
-            for (i, ai) in a.iter().enumerate() {
+            for (qi, ai) in q.data.chunks_exact_mut(nz.max(1)).zip(a) {
                 if *ai == 0.0 {
                     continue;
                 }
-                for (j, bj) in b.iter().enumerate() {
-                    q.data[i * nz + j] += k * ai * bj;
+                for (qij, bj) in qi.iter_mut().zip(b) {
+                    *qij += k * ai * bj;
                 }
             }
         };
@@ -324,16 +327,21 @@ impl OutputForms {
             add_outer(r, r, g_min);
         }
         OutputForms {
-            at: by_columns(&[&c, &q]),
-            half: by_columns(&[&td.table[1]]),
+            at: Columns::new(&linalg::Mat {
+                rows: n_probe + nz,
+                cols: nz,
+                data: [c.data, q.data].concat(),
+            }),
+            n_probe,
+            half: by_columns(&td.table[1]),
         }
     }
 
-    /// The probes at the state `z` into `out[..n_probe]` (and `q z` into the
-    /// rest), and the dissipation `z^T q z`.
-    fn eval(&self, z: &[f64], n_probe: usize, out: &mut [f64]) -> f64 {
-        mul_by_columns(&self.at, z, out);
-        dot(&out[n_probe..], z)
+    /// The probes at the state `z` into `out[..n_probe]` (and `q z` into
+    /// `out[n_probe..]`), and the dissipation `z^T q z`.
+    fn eval(&self, z: &[f64], out: &mut [f64]) -> f64 {
+        self.at.mul_into(z, out);
+        dot(&out[self.n_probe..], z)
     }
 }
 
@@ -365,16 +373,95 @@ fn mul_by_columns(m: &[f64], z: &[f64], out: &mut [f64]) {
     }
 }
 
-/// The matrices `parts` stacked (same columns), stored column after column.
-fn by_columns(parts: &[&linalg::Mat]) -> Vec<f64> {
-    let cols = parts.first().map_or(0, |m| m.cols);
-    let mut out = Vec::with_capacity(parts.iter().map(|m| m.rows).sum::<usize>() * cols);
-    for j in 0..cols {
-        for m in parts {
-            out.extend((0..m.rows).map(|r| m.at(r, j)));
+/// `m` stored column after column.
+fn by_columns(m: &linalg::Mat) -> Vec<f64> {
+    (0..m.cols)
+        .flat_map(|j| (0..m.rows).map(move |r| m.at(r, j)))
+        .collect()
+}
+
+/// A matrix `m` (rows by the entries of `z`) stored for `out = m z` as
+/// its columns, each cut to the range of rows in which it is not zero and
+/// widened with zeros to a multiple of four rows (columns all zero left
+/// out; the first one kept whole, so that it sets every row): `out` is the
+/// sum of the columns, each scaled by its entry of `z`, a stream over
+/// contiguous rows that vectorises.  Most probes depend on few entries of
+/// `z` (a supply voltage on the oscillator pair alone, a DC-side signal not
+/// on the oscillators; the constant column is zero with ideal devices): on
+/// the drive front end (26 probes and `q`, 8 entries of `z`) 214 of the 272
+/// entries are streamed.  Each entry sums its terms in the order of
+/// `Mat::mul_vec_into`, the zero ones left out (a zero entry adds a zero
+/// product: the same sums, bit for bit).
+struct Columns {
+    rows: usize,
+    /// Per column kept: the entry of `z`, its first row, and its run of
+    /// rows in `data` (start, end).
+    cols: Vec<(usize, usize, usize, usize)>,
+    data: Vec<f64>,
+}
+
+impl Columns {
+    fn new(m: &linalg::Mat) -> Columns {
+        let mut cols = Vec::with_capacity(m.cols);
+        let mut data = Vec::new();
+        for j in 0..m.cols {
+            let nonzero = |r: &usize| m.at(*r, j) != 0.0;
+            let (Some(lo), Some(hi)) = ((0..m.rows).find(nonzero), (0..m.rows).rfind(nonzero))
+            else {
+                continue;
+            };
+            // The first column kept is kept whole: it sets every row.
+            let (mut lo, mut hi) = if cols.is_empty() {
+                (0, m.rows - 1)
+            } else {
+                (lo, hi)
+            };
+            // Runs of a multiple of four rows (zeros added after, else
+            // before, within the matrix): the vectorised loop then leaves
+            // no rows to a scalar tail.
+            while (hi + 1 - lo) % 4 != 0 && (hi + 1 < m.rows || lo > 0) {
+                if hi + 1 < m.rows {
+                    hi += 1;
+                } else {
+                    lo -= 1;
+                }
+            }
+            let start = data.len();
+            data.extend((lo..=hi).map(|r| m.at(r, j)));
+            cols.push((j, lo, start, data.len()));
+        }
+        Columns {
+            rows: m.rows,
+            cols,
+            data,
         }
     }
-    out
+
+    /// `out[..rows] = m z` (`z` as long as `m` has columns).
+    #[inline]
+    fn mul_into(&self, z: &[f64], out: &mut [f64]) {
+        let out = &mut out[..self.rows];
+        let mut cols = self.cols.iter();
+        match cols.next() {
+            // The first column spans every row (see `new`).
+            Some(&(j, _, start, end)) => {
+                let zj = z[j];
+                for (o, x) in out.iter_mut().zip(&self.data[start..end]) {
+                    *o = zj * x;
+                }
+            }
+            None => out.fill(0.0),
+        }
+        for &(j, lo, start, end) in cols {
+            let zj = z[j];
+            if zj == 0.0 {
+                continue;
+            }
+            for (o, x) in out[lo..].iter_mut().zip(&self.data[start..end]) {
+                *o += zj * x;
+            }
+        }
+    }
 }
 
 fn probe_row(p: &Probe, t: &Topology, circuit: &circuit::Circuit) -> Vec<f64> {
@@ -825,9 +912,9 @@ fn settling_windows(
         let mut back_from = |b: u32, out: &mut Vec<f64>| {
             Engine::prop_vec_into(&td, 1u64 << b, &p.z, &mut z, &mut scratch);
             let w = tick * (1u64 << b) as f64;
-            fo.eval(&z, n_probe, &mut v);
+            fo.eval(&z, &mut v);
             td.topo.f.mul_vec_into(&z, &mut fz);
-            fo.eval(&fz, n_probe, &mut dv);
+            fo.eval(&fz, &mut dv);
             out.clear();
             out.extend((0..n_probe).map(|i| v[i] - w * dv[i]));
         };
@@ -845,7 +932,7 @@ fn settling_windows(
             continue;
         }
         let mut start = vec![0.0; rows];
-        fo.eval(&p.z, n_probe, &mut start);
+        fo.eval(&p.z, &mut start);
         if agree(&start[..n_probe], &longest) {
             out.push((piece_i, false, false));
             continue;
@@ -879,7 +966,7 @@ fn settling_windows(
             None => run.pieces[run.pieces.len() - 1].key,
         };
         let fi = form_of(key, eng, forms)?;
-        forms[fi].eval(&run.pieces[pi].z, n_probe, &mut v);
+        forms[fi].eval(&run.pieces[pi].z, &mut v);
         settled.push(v[..n_probe].to_vec());
     }
     // Windows past the period's end continue at its start.
@@ -941,10 +1028,16 @@ impl Accum {
         2 * (self.h_max + 1)
     }
 
+    /// Min and max with the values `vals` (written as selects, which
+    /// compile to packed min and max; a NaN value is passed over, as by
+    /// `f64::min`).
     fn extremes(&mut self, vals: &[f64]) {
-        for ((lo, hi), v) in self.mn.iter_mut().zip(self.mx.iter_mut()).zip(vals) {
-            *lo = lo.min(*v);
-            *hi = hi.max(*v);
+        let n = self.mn.len().min(self.mx.len()).min(vals.len());
+        let (mn, mx, vals) = (&mut self.mn[..n], &mut self.mx[..n], &vals[..n]);
+        for i in 0..n {
+            let v = vals[i];
+            mn[i] = if v < mn[i] { v } else { mn[i] };
+            mx[i] = if v > mx[i] { v } else { mx[i] };
         }
     }
 
@@ -953,9 +1046,11 @@ impl Accum {
     /// counts for min and max too, unless `ext` is false (a node in a
     /// settling window, see `settling_windows`).
     fn node(&mut self, wt: f64, vals: &[f64], q: f64, r: &RoleIndex, ext: bool) {
-        for ((s, s2), v) in self.sum.iter_mut().zip(self.sum2.iter_mut()).zip(vals) {
-            *s += wt * v;
-            *s2 += wt * v * v;
+        let n = self.sum.len().min(self.sum2.len()).min(vals.len());
+        let (sum, sum2, v) = (&mut self.sum[..n], &mut self.sum2[..n], &vals[..n]);
+        for i in 0..n {
+            sum[i] += wt * v[i];
+            sum2[i] += wt * v[i] * v[i];
         }
         if ext {
             self.extremes(vals);
@@ -1145,7 +1240,7 @@ fn simulate_with(
         };
         last = Some((p.key, fi));
         piece_form.push(fi);
-        let q = forms[fi].eval(&p.z, n_probe, &mut vals);
+        let q = forms[fi].eval(&p.z, &mut vals);
         start_vals.extend_from_slice(&vals[..n_probe]);
         start_vals.push(q);
     }
@@ -1165,7 +1260,7 @@ fn simulate_with(
             Some(p) if p.t_s == k.0 && p.key == k.1 && p.z == k.2 => start_of(piece_i),
             _ => {
                 let fi = form_of(k.1, &mut eng, &mut forms)?;
-                forms[fi].eval(&k.2, n_probe, &mut knot_vals);
+                forms[fi].eval(&k.2, &mut knot_vals);
                 &knot_vals[..n_probe]
             }
         };
@@ -1219,7 +1314,7 @@ fn simulate_with(
             eng.gauss_states_into(p, &mut gs)?;
             let mut tw = [(0.0, 0.0); 4];
             for (((t, wt, z), vals), tw) in gs.iter().zip(gauss_vals.iter_mut()).zip(&mut tw) {
-                let q = forms[fi].eval(z, n_probe, vals);
+                let q = forms[fi].eval(z, vals);
                 // Interior points of the waveform: they count for min and max.
                 acc.node(*wt, &vals[..n_probe], q, &r, !windows.covers(*t));
                 *tw = (*t, *wt);
@@ -1232,7 +1327,7 @@ fn simulate_with(
         carry = 0.0;
         let fo = &forms[fi];
         mul_by_columns(&fo.half, &p.z, &mut z_mid);
-        let q_mid = fo.eval(&z_mid, n_probe, &mut mid);
+        let q_mid = fo.eval(&z_mid, &mut mid);
         let v_mid = &mid[..n_probe];
         let mid_ext = !windows.covers(p.t_s + h_step / 2.0);
         acc.node(w_mid, v_mid, q_mid, &r, mid_ext);
@@ -1253,7 +1348,7 @@ fn simulate_with(
                     }
                     _ => eng.topo_key(p.key)?.step.mul_vec_into(&p.z, &mut z_end),
                 }
-                let q_end = fo.eval(&z_end, n_probe, &mut end);
+                let q_end = fo.eval(&z_end, &mut end);
                 acc.node(w_end, &end[..n_probe], q_end, &r, !windows.covers(t_end));
                 &end[..n_probe]
             }
@@ -1261,11 +1356,14 @@ fn simulate_with(
         let k = (p.t_s / h_step).round() as usize;
         if use_fft && k < n_grid && (p.t_s - k as f64 * h_step).abs() < 1e-9 * h_step {
             let k1 = (k + 1) % n_grid;
-            for (j, &si) in harm_signals.iter().enumerate() {
-                let knots = &mut seq[j * n_grid..(j + 1) * n_grid];
-                knots[k] += w_end * v_start[si];
-                knots[k1] += w_end * v_end[si];
-                seq[(n_harm + j) * n_grid + k] = w_mid * v_mid[si];
+            let (knots, mids) = seq.split_at_mut(n_harm * n_grid);
+            let runs = knots
+                .chunks_exact_mut(n_grid)
+                .zip(mids.chunks_exact_mut(n_grid));
+            for ((kn, md), &si) in runs.zip(&harm_signals) {
+                kn[k] += w_end * v_start[si];
+                kn[k1] += w_end * v_end[si];
+                md[k] = w_mid * v_mid[si];
             }
         } else {
             let nodes = [
@@ -1735,4 +1833,71 @@ fn absorb(
         }
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// `Columns` gives the dense product's sums, bit for bit: each entry is
+    /// the same terms in the same order, the zero ones left out (common
+    /// practice: adding a zero product leaves a sum unchanged).  The matrix
+    /// has an all-zero column, columns zero at the top or bottom, and a
+    /// zero entry of `z`.
+    #[test]
+    fn columns_match_the_dense_product() {
+        let (rows, cols) = (7, 5);
+        let mut m = linalg::Mat::zeros(rows, cols);
+        for r in 0..rows {
+            for j in 0..cols {
+                let x = ((r * 31 + j * 17) % 13) as f64 / 7.0 - 0.9;
+                let keep = match j {
+                    0 => true,
+                    1 => r >= 3,
+                    2 => false,
+                    3 => r <= 2 || r == 5,
+                    _ => r % 2 == 0,
+                };
+                if keep {
+                    m.set(r, j, x * 1e3f64.powi(j as i32 - 2));
+                }
+            }
+        }
+        let k = Columns::new(&m);
+        // Column 2 is left out; the others keep their rows from the first
+        // to the last entry not zero, widened to four rows or the whole
+        // column (column 3: rows 0 to 5, widened to all 7).
+        assert_eq!(k.cols.len(), 4);
+        assert_eq!(k.data.len(), 7 + 4 + 7 + 7);
+        // Rows past the first column's last entry not zero are set too.
+        let mut m0 = m.clone();
+        for r in 4..rows {
+            m0.set(r, 0, 0.0);
+        }
+        let k0 = Columns::new(&m0);
+        assert_eq!(k0.data.len(), 7 + 4 + 7 + 7);
+        let zs = [
+            [1.5, -2.25, 3.0, 0.125, -7.0],
+            [0.0, 1e-3, -1e6, 2.0, 0.0],
+            [-3.0, 0.0, 0.0, 0.0, 4.5],
+        ];
+        for ((mat, kept), z) in [(&m, &k), (&m0, &k0)]
+            .into_iter()
+            .flat_map(|p| zs.iter().map(move |z| (p, z)))
+        {
+            let mut dense = vec![0.0; rows];
+            mat.mul_vec_into(z, &mut dense);
+            let mut out = vec![f64::NAN; rows + 2];
+            kept.mul_into(z, &mut out);
+            for (a, b) in out[..rows].iter().zip(&dense) {
+                assert_eq!(
+                    a.to_bits() & !(1 << 63),
+                    b.to_bits() & !(1 << 63),
+                    "{a} vs {b}"
+                );
+            }
+            // Rows past the matrix are not touched.
+            assert!(out[rows..].iter().all(|x| x.is_nan()));
+        }
+    }
 }
