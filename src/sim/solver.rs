@@ -609,6 +609,43 @@ impl TopoShare {
     }
 }
 
+/// How a switch may change state by itself: a flat copy of its element's
+/// kind made at `Engine::new`, so that the checks of every step (`may_switch`,
+/// `violation`) read one small entry instead of going through the netlist.
+#[derive(Debug, Clone, Copy)]
+enum Gate {
+    /// Changes only by command (a contactor) or never (an open device).
+    Fixed,
+    /// Turns off at a current zero, on when forward biased.
+    Diode,
+    /// Turns on only within its gate window; turns off at its end unless latched.
+    Thyristor { fire_s: f64, width_s: f64 },
+}
+
+/// `x.rem_euclid(p)`, bit for bit, without the library `fmod` when `x` is
+/// within two periods of zero (every gate check of a periodic run): there
+/// `x % p` is `x`, `x - p` or `x + p`, each exact (Sterbenz).  Otherwise,
+/// and for a `p` that is not positive and finite, the library call.
+#[inline]
+fn rem_period(x: f64, p: f64) -> f64 {
+    let r = if !(p > 0.0 && p < f64::INFINITY) {
+        return x.rem_euclid(p);
+    } else if x > -p && x < p {
+        x
+    } else if x >= p && x < 2.0 * p {
+        x - p
+    } else if x > -2.0 * p && x < -p {
+        x + p
+    } else {
+        x % p
+    };
+    if r < 0.0 {
+        r + p
+    } else {
+        r
+    }
+}
+
 /// The engine for one circuit.
 pub struct Engine {
     pub circuit: Circuit,
@@ -628,6 +665,9 @@ pub struct Engine {
     pub n_topologies_built: usize,
     /// Times (within the period) where the march must stop: gate openings.
     gate_times: Vec<f64>,
+    /// Each switch's gate, from its element (the circuit's elements do not
+    /// change after `new`: the cached topologies depend on them too).
+    gates: Vec<Gate>,
     /// When every oscillator runs at a whole multiple `k` of the supply
     /// frequency: the unit circle of the grid (`fft::unit_circle`) and each
     /// oscillator's `k`, so that at the grid point `i` its (cos, sin) is the
@@ -685,7 +725,31 @@ impl Engine {
             }
             _ => None,
         };
+        let gates = circuit
+            .switches
+            .iter()
+            .map(|&e| match &circuit.elements[e] {
+                Element::Switch { open: true, .. }
+                | Element::Switch {
+                    kind: SwitchKind::Contactor,
+                    ..
+                } => Gate::Fixed,
+                Element::Switch {
+                    kind: SwitchKind::Diode,
+                    ..
+                } => Gate::Diode,
+                Element::Switch {
+                    kind: SwitchKind::Thyristor { fire_s, width_s },
+                    ..
+                } => Gate::Thyristor {
+                    fire_s: *fire_s,
+                    width_s: *width_s,
+                },
+                _ => Gate::Fixed,
+            })
+            .collect();
         Engine {
+            gates,
             osc_grid,
             circuit,
             period_s,
@@ -858,15 +922,12 @@ impl Engine {
         sub
     }
 
-    fn gate_active(&self, kind: &SwitchKind, t_s: f64) -> bool {
-        match kind {
-            SwitchKind::Diode => true,
-            SwitchKind::Thyristor { fire_s, width_s } => {
-                let d = (t_s - fire_s).rem_euclid(self.period_s);
-                d < *width_s || (self.period_s - d) < 1e-12 * self.period_s
-            }
-            SwitchKind::Contactor => false,
-        }
+    /// Is the gate window (from `fire_s`, `width_s` long, every period) open
+    /// at `t_s` (a stop at the window's start rounded just before it counts)?
+    #[inline]
+    fn gate_active(&self, fire_s: f64, width_s: f64, t_s: f64) -> bool {
+        let d = rem_period(t_s - fire_s, self.period_s);
+        d < width_s || (self.period_s - d) < 1e-12 * self.period_s
     }
 
     /// Condition row `c` of switch `k` in topology `t`, and whether a positive
@@ -895,41 +956,40 @@ impl Engine {
         }
     }
 
-    /// Is `t_s` the end of thyristor gate `kind`'s window (within 1e-9 of a
-    /// period, far below a grid step and far above the rounding of a stop)?
-    fn gate_end(&self, kind: &SwitchKind, t_s: f64) -> bool {
-        match kind {
-            SwitchKind::Thyristor { fire_s, width_s } => {
-                let d = (t_s - fire_s - width_s).rem_euclid(self.period_s);
-                d.min(self.period_s - d) < 1e-9 * self.period_s
-            }
-            _ => false,
-        }
+    /// Is `t_s` the end of the gate window from `fire_s`, `width_s` long
+    /// (within 1e-9 of a period, far below a grid step and far above the
+    /// rounding of a stop)?
+    #[inline]
+    fn gate_end(&self, fire_s: f64, width_s: f64, t_s: f64) -> bool {
+        let d = rem_period(t_s - fire_s - width_s, self.period_s);
+        d.min(self.period_s - d) < 1e-9 * self.period_s
     }
 
     /// Is switch `k` allowed to change state at time `t` (by its kind)?
+    #[inline]
     fn may_switch(&self, k: usize, on: bool, t_s: f64) -> bool {
-        let e = self.circuit.switches[k];
-        match &self.circuit.elements[e] {
-            Element::Switch { kind, open, .. } => {
-                if *open {
-                    return false;
-                }
-                match kind {
-                    SwitchKind::Contactor => false,
-                    _ if on => true, // turning off: natural commutation
-                    other => self.gate_active(other, t_s) && !self.gate_end(other, t_s),
-                }
+        match self.gates[k] {
+            Gate::Fixed => false,
+            _ if on => true, // turning off: natural commutation
+            Gate::Diode => true,
+            Gate::Thyristor { fire_s, width_s } => {
+                self.gate_active(fire_s, width_s, t_s) && !self.gate_end(fire_s, width_s, t_s)
             }
-            _ => false,
         }
     }
 
     /// Violation measure of switch `k` (> 1 means it must flip).
+    #[inline]
     fn violation(&self, td: &TopoData, k: usize, on: bool, z: &[f64], t_s: f64) -> f64 {
         if !self.may_switch(k, on, t_s) {
             return 0.0;
         }
+        self.violation_free(td, k, on, z, t_s)
+    }
+
+    /// `violation` of a switch that `may_switch` at `t_s`.
+    #[inline]
+    fn violation_free(&self, td: &TopoData, k: usize, on: bool, z: &[f64], t_s: f64) -> f64 {
         let v: f64 = dot(&td.cond[k], z);
         if on {
             // Latching: a thyristor whose current has not reached the
@@ -941,9 +1001,8 @@ impl Engine {
             // fired, which no real bridge does: with 30-degree gates
             // 60 degrees apart at alpha = 60 into E = 400 V on 400 V, 1.1 A
             // of DC current.
-            let e = self.circuit.switches[k];
-            if let Element::Switch { kind, .. } = &self.circuit.elements[e] {
-                if self.gate_end(kind, t_s) {
+            if let Gate::Thyristor { fire_s, width_s } = self.gates[k] {
+                if self.gate_end(fire_s, width_s, t_s) {
                     return (-v / self.i_tol_a).max(2.0 - v / self.i_tol_a);
                 }
             }
@@ -1118,10 +1177,12 @@ impl Engine {
             // settling at the stop has nothing to do).
             let mut any_violation = false;
             for k in 0..on.len() {
-                if !self.may_switch(k, on[k], t_next) && !self.may_switch(k, on[k], t) {
+                // A switch that may not change at the stop has no violation
+                // there (`violation` is 0), so nothing to locate.
+                if !self.may_switch(k, on[k], t_next) {
                     continue;
                 }
-                let v_end = self.violation(&td, k, on[k], &z_end, t_next);
+                let v_end = self.violation_free(&td, k, on[k], &z_end, t_next);
                 if v_end <= 1.0 {
                     // On the wrong side within the tolerance at the end, after
                     // starting on the right side, and going beyond it on the
@@ -2011,5 +2072,48 @@ mod tests {
                 }
             }
         }
+    }
+
+    /// `rem_period` is `rem_euclid` to the bit: around every boundary of its
+    /// fast paths (0, one and two periods either side, by a few ulps), far
+    /// outside them, at signed zeros, non-finite inputs and odd periods.
+    #[test]
+    fn rem_period_is_rem_euclid() {
+        let mut checked = 0;
+        for p in [1.0 / 60.0, 0.02, 1.0, 3.0e-7, 7.5e5, f64::MIN_POSITIVE] {
+            let mut xs = vec![0.0, -0.0, 1e300, -1e300, f64::INFINITY, f64::NAN];
+            for m in [
+                -3.0, -2.0, -1.5, -1.0, -0.5, 0.0, 0.5, 1.0, 1.5, 2.0, 3.0, 1e6,
+            ] {
+                let c: f64 = m * p;
+                let mut up = c;
+                let mut down = c;
+                for _ in 0..4 {
+                    xs.push(up);
+                    xs.push(down);
+                    up = up.next_up();
+                    down = down.next_down();
+                }
+            }
+            for i in 0..2000 {
+                // A spread of times over six periods, negative ones included.
+                xs.push(p * (-3.0 + 6.0 * (i as f64 * 0.618_033_988_749_895).fract()));
+            }
+            for &x in &xs {
+                let (a, b) = (rem_period(x, p), x.rem_euclid(p));
+                assert!(
+                    a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()),
+                    "x {x:e} p {p:e}: {a:e} against {b:e}"
+                );
+                checked += 1;
+            }
+        }
+        for p in [0.0, -1.0, f64::INFINITY, f64::NAN] {
+            for x in [0.5, -0.5, 3.0] {
+                let (a, b) = (rem_period(x, p), x.rem_euclid(p));
+                assert!(a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()));
+            }
+        }
+        assert!(checked > 10_000);
     }
 }
