@@ -224,6 +224,8 @@ pub const MAX_TOTAL_EVENTS: usize = 60_000;
 /// Cached data of one topology.
 pub struct TopoData {
     pub topo: Topology,
+    /// The topology's key (`Engine::key` of its switch states).
+    pub key: u64,
     /// `expm(F h)` for the grid step.
     pub step: Mat,
     /// `table[i] = expm(F h / 2^i)`, i = 0..=TABLE_LEVELS.  Any time in a step,
@@ -646,6 +648,23 @@ fn rem_period(x: f64, p: f64) -> f64 {
     }
 }
 
+/// `x.round().clamp(0.0, top) as u64` for `top` at most 2^52, without the
+/// library call in the usual case: for `0 < x < top` the truncation and the
+/// fraction are exact, and the rounding is half away from zero.
+#[inline]
+fn round_ticks(x: f64, top: f64) -> u64 {
+    if x > 0.0 && x < top && top <= (1u64 << 52) as f64 {
+        let i = x as u64;
+        if x - i as f64 >= 0.5 {
+            i + 1
+        } else {
+            i
+        }
+    } else {
+        x.round().clamp(0.0, top) as u64
+    }
+}
+
 /// The engine for one circuit.
 pub struct Engine {
     pub circuit: Circuit,
@@ -811,6 +830,7 @@ impl Engine {
         }
         let d = Arc::new(TopoData {
             topo,
+            key,
             step,
             table,
             cond,
@@ -859,7 +879,7 @@ impl Engine {
     fn ticks(&self, tau: f64) -> u64 {
         let full = 1u64 << TABLE_LEVELS;
         let top = (full << COARSE_LEVELS) as f64;
-        ((tau / self.h_s) * full as f64).round().clamp(0.0, top) as u64
+        round_ticks((tau / self.h_s) * full as f64, top)
     }
 
     /// The matrix of tick bit `b`: `expm(F h 2^(b - TABLE_LEVELS))`.
@@ -1130,21 +1150,45 @@ impl Engine {
         let mut n_ev = 0usize;
         let mut last_flip: Option<(usize, f64)> = None;
         // Topologies visited at the current instant (cycle guard at leakage level).
-        let mut visited_now: Vec<u64> = vec![Self::key(&on)];
+        let mut visited_now: Vec<u64> = vec![td.key];
         if spec.record {
-            knots.push((t, Self::key(&on), ZVec::from_slice(&z)));
+            knots.push((t, td.key, ZVec::from_slice(&z)));
         }
         let end_tol = 1e-12 * self.period_s;
+        // (period start, `lo`, earliest gate stop after `lo`): see below.
+        let mut gate_ahead = (f64::NAN, f64::NAN, f64::NAN);
         while t < spec.t1_s - end_tol {
+            // `td` is always the topology of `on` (its key stands for theirs).
+            debug_assert_eq!(td.key, Self::key(&on));
             // Next stop: the next grid point, a gate opening, or the end.
             let mut t_next = ((grid_index + 1) as f64 * h).min(spec.t1_s);
             let mut at_grid = true;
-            let base = (t / self.period_s).floor() * self.period_s;
-            for &g in &self.gate_times {
-                for cand in [base + g, base + g + self.period_s] {
-                    if cand > t + end_tol && cand < t_next - end_tol {
-                        t_next = cand;
-                        at_grid = false;
+            if !self.gate_times.is_empty() {
+                let base = (t / self.period_s).floor() * self.period_s;
+                let lo = t + end_tol;
+                // The earliest gate stop after `lo`, kept while `base` holds:
+                // every candidate after a later `lo` is after it too, so when
+                // it is not before the grid point no candidate is, and the
+                // scan below would change nothing.
+                if !(gate_ahead.0 == base && lo >= gate_ahead.1 && gate_ahead.2 > lo) {
+                    let mut m = f64::INFINITY;
+                    for &g in &self.gate_times {
+                        for cand in [base + g, base + g + self.period_s] {
+                            if cand > lo && cand < m {
+                                m = cand;
+                            }
+                        }
+                    }
+                    gate_ahead = (base, lo, m);
+                }
+                if gate_ahead.2 < t_next - end_tol {
+                    for &g in &self.gate_times {
+                        for cand in [base + g, base + g + self.period_s] {
+                            if cand > t + end_tol && cand < t_next - end_tol {
+                                t_next = cand;
+                                at_grid = false;
+                            }
+                        }
                     }
                 }
             }
@@ -1260,7 +1304,7 @@ impl Engine {
                         pieces.push(Piece {
                             t_s: t,
                             dt_s: tau,
-                            key: Self::key(&on),
+                            key: td.key,
                             z: ZVec::from_slice(&z),
                         });
                     }
@@ -1310,7 +1354,7 @@ impl Engine {
                         }
                     }
                     z = zr;
-                    visited_now.push(Self::key(&on));
+                    visited_now.push(td.key);
                     let on_before: Vec<bool> = on.clone();
                     td = self.settle(
                         &mut on,
@@ -1320,7 +1364,7 @@ impl Engine {
                         if k == usize::MAX { None } else { Some(k) },
                     )?;
                     td = self.settle_slow(&mut on, &on_before, &z, t, &mut events, td)?;
-                    visited_now.push(Self::key(&on));
+                    visited_now.push(td.key);
                     n_ev += 1;
                     self.total_events += 1;
                     if self.total_events > MAX_TOTAL_EVENTS {
@@ -1341,7 +1385,7 @@ impl Engine {
                         pieces.push(Piece {
                             t_s: t,
                             dt_s: dt,
-                            key: Self::key(&on),
+                            key: td.key,
                             z: ZVec::from_slice(&z),
                         });
                     }
@@ -1388,9 +1432,9 @@ impl Engine {
                     if any_violation || contactor_now {
                         td = self.settle(&mut on, &z, t, &mut events, None)?;
                     }
-                    visited_now.push(Self::key(&on));
+                    visited_now.push(td.key);
                     if spec.record && at_grid {
-                        knots.push((t, Self::key(&on), ZVec::from_slice(&z)));
+                        knots.push((t, td.key, ZVec::from_slice(&z)));
                     }
                 }
             }
@@ -2115,5 +2159,42 @@ mod tests {
             }
         }
         assert!(checked > 10_000);
+    }
+
+    /// `round_ticks` is `x.round().clamp(0.0, top) as u64` on halves, their
+    /// neighbours, the ends of the range and beyond.
+    #[test]
+    fn round_ticks_is_round() {
+        let top = (1u64 << (TABLE_LEVELS + COARSE_LEVELS)) as f64;
+        let mut xs = vec![
+            0.0,
+            -0.0,
+            -0.5,
+            -1.0,
+            top,
+            top + 0.5,
+            1e300,
+            f64::NAN,
+            f64::INFINITY,
+        ];
+        for c in [0.5, 1.0, 1.5, 2.5, 1e6 + 0.5, top - 0.5, top - 1.5, 12345.0] {
+            let (mut up, mut down) = (c, c);
+            for _ in 0..4 {
+                xs.push(up);
+                xs.push(down);
+                up = f64::next_up(up);
+                down = f64::next_down(down);
+            }
+        }
+        for i in 0..5000 {
+            xs.push(top * (i as f64 * 0.618_033_988_749_895).fract());
+        }
+        for &x in &xs {
+            assert_eq!(
+                round_ticks(x, top),
+                x.round().clamp(0.0, top) as u64,
+                "x {x:e}"
+            );
+        }
     }
 }
