@@ -628,7 +628,7 @@ enum Gate {
 /// within two periods of zero (every gate check of a periodic run): there
 /// `x % p` is `x`, `x - p` or `x + p`, each exact (Sterbenz).  Otherwise,
 /// and for a `p` that is not positive and finite, the library call.
-#[inline]
+#[inline(always)]
 fn rem_period(x: f64, p: f64) -> f64 {
     let r = if !(p > 0.0 && p < f64::INFINITY) {
         return x.rem_euclid(p);
@@ -944,7 +944,7 @@ impl Engine {
 
     /// Is the gate window (from `fire_s`, `width_s` long, every period) open
     /// at `t_s` (a stop at the window's start rounded just before it counts)?
-    #[inline]
+    #[inline(always)]
     fn gate_active(&self, fire_s: f64, width_s: f64, t_s: f64) -> bool {
         let d = rem_period(t_s - fire_s, self.period_s);
         d < width_s || (self.period_s - d) < 1e-12 * self.period_s
@@ -979,14 +979,14 @@ impl Engine {
     /// Is `t_s` the end of the gate window from `fire_s`, `width_s` long
     /// (within 1e-9 of a period, far below a grid step and far above the
     /// rounding of a stop)?
-    #[inline]
+    #[inline(always)]
     fn gate_end(&self, fire_s: f64, width_s: f64, t_s: f64) -> bool {
         let d = rem_period(t_s - fire_s - width_s, self.period_s);
         d.min(self.period_s - d) < 1e-9 * self.period_s
     }
 
     /// Is switch `k` allowed to change state at time `t` (by its kind)?
-    #[inline]
+    #[inline(always)]
     fn may_switch(&self, k: usize, on: bool, t_s: f64) -> bool {
         match self.gates[k] {
             Gate::Fixed => false,
@@ -1157,6 +1157,11 @@ impl Engine {
         let end_tol = 1e-12 * self.period_s;
         // (period start, `lo`, earliest gate stop after `lo`): see below.
         let mut gate_ahead = (f64::NAN, f64::NAN, f64::NAN);
+        // Scratch of the crossing search (`locate`) and of an event.
+        let mut loc_z = vec![0.0; z.len()];
+        let mut loc_tmp = vec![0.0; z.len()];
+        let mut first_z = vec![0.0; z.len()];
+        let mut on_before: Vec<bool> = Vec::with_capacity(on.len());
         while t < spec.t1_s - end_tol {
             // `td` is always the topology of `on` (its key stands for theirs).
             debug_assert_eq!(td.key, Self::key(&on));
@@ -1216,7 +1221,8 @@ impl Engine {
             }
             Self::prop_vec_into(&td, m_dt, &z, &mut z_end, &mut z_tmp);
             // Find the earliest crossing among the switches.
-            let mut first: Option<(f64, usize, Vec<f64>)> = None;
+            // (time, switch); its state in `first_z`.
+            let mut first: Option<(f64, usize)> = None;
             // Whether any switch ends the step on the wrong side (if none, the
             // settling at the stop has nothing to do).
             let mut any_violation = false;
@@ -1251,7 +1257,15 @@ impl Engine {
                 } else {
                     any_violation = true;
                 }
-                let (tau, zr) = self.locate(&td, &td.cond[k], &z, m_dt, on[k]);
+                let tau = self.locate(
+                    &td,
+                    &td.cond[k],
+                    (&z, &z_end),
+                    m_dt,
+                    on[k],
+                    &mut loc_z,
+                    &mut loc_tmp,
+                );
                 // A device that flipped at this very instant and sits at its
                 // threshold (leakage-level current) is not flipped back at the
                 // same instant; the check at the next stop settles it.
@@ -1264,7 +1278,8 @@ impl Engine {
                     continue;
                 }
                 if first.as_ref().is_none_or(|f| tau < f.0) {
-                    first = Some((tau, k, zr));
+                    first = Some((tau, k));
+                    std::mem::swap(&mut first_z, &mut loc_z);
                 }
             }
             // Contactor closing by voltage.
@@ -1283,9 +1298,18 @@ impl Engine {
                     if rule.level_v.is_finite() && v_end >= rule.level_v {
                         let mut c = row.clone();
                         c[self.circuit.const_idx()] -= rule.level_v;
-                        let (tau, zr) = self.locate(&td, &c, &z, m_dt, false);
+                        let tau = self.locate(
+                            &td,
+                            &c,
+                            (&z, &z_end),
+                            m_dt,
+                            false,
+                            &mut loc_z,
+                            &mut loc_tmp,
+                        );
                         if first.as_ref().is_none_or(|f| tau < f.0) {
-                            first = Some((tau, usize::MAX, zr));
+                            first = Some((tau, usize::MAX));
+                            std::mem::swap(&mut first_z, &mut loc_z);
                         }
                     } else if rule.at_s.is_finite() && (t_next - rule.at_s).abs() < end_tol {
                         // The stop at the closing time (a grid point too: a
@@ -1295,7 +1319,8 @@ impl Engine {
                 }
             }
             match first {
-                Some((tau, k, zr)) if tau < dt - end_tol => {
+                Some((tau, k)) if tau < dt - end_tol => {
+                    let zr = &first_z;
                     // Event inside the step.
                     if tau > 0.0 {
                         visited_now.clear();
@@ -1313,12 +1338,9 @@ impl Engine {
                         Self::prop_sens(&td, m_tau, s, &mut sens_tmp);
                     }
                     t += tau;
-                    let f_old = td.topo.f.mul_vec(&zr);
-                    let c = if k == usize::MAX {
-                        None
-                    } else {
-                        Some(td.cond[k].clone())
-                    };
+                    // The topology before the flip (its `F` and the switch's
+                    // condition row, for the saltation matrix).
+                    let td_old = td.clone();
                     if k == usize::MAX {
                         self.close_contactors(&mut on, t, &mut events);
                         contactor_done = true;
@@ -1333,9 +1355,11 @@ impl Engine {
                         self.n_events += 1;
                     }
                     td = self.topo(&on)?;
-                    if let (Some(s), Some(c)) = (sens.as_mut(), c) {
-                        let f_new = td.topo.f.mul_vec(&zr);
-                        let cf = dot(&c, &f_old);
+                    if let (Some(s), true) = (sens.as_mut(), k != usize::MAX) {
+                        let c = &td_old.cond[k];
+                        let f_old = td_old.topo.f.mul_vec(zr);
+                        let f_new = td.topo.f.mul_vec(zr);
+                        let cf = dot(c, &f_old);
                         if cf.abs() > 1e-300 {
                             // S += (f+ - f-) (c^T S) / (c^T f-), over `sub`
                             // (f+ - f- is zero outside the physical states).
@@ -1353,9 +1377,11 @@ impl Engine {
                             }
                         }
                     }
-                    z = zr;
+                    drop(td_old);
+                    std::mem::swap(&mut z, &mut first_z);
                     visited_now.push(td.key);
-                    let on_before: Vec<bool> = on.clone();
+                    on_before.clear();
+                    on_before.extend_from_slice(&on);
                     td = self.settle(
                         &mut on,
                         &z,
@@ -1604,37 +1630,50 @@ impl Engine {
     /// Locate a zero of `c . expm(F tau) z` on (0, dt] (dt = `m_dt` ticks), given
     /// that it is on the far side at `dt`: bisection on the dyadic table, one
     /// matrix-vector product per level.  Returns the time just past the root (on
-    /// the far side, within one finest tick) and the state there.
-    fn locate(&self, td: &TopoData, c: &[f64], z: &[f64], m_dt: u64, on: bool) -> (f64, Vec<f64>) {
+    /// the far side, within one finest tick), and the state there in `out`.
+    /// `zs`: `z` and the state at `dt` (`prop_vec_into` of `z` by `m_dt`, which
+    /// the caller has: the answer when the root is in the last tick).  `out`
+    /// and `tmp` are scratch of `z`'s length.
+    #[allow(clippy::too_many_arguments)]
+    fn locate(
+        &self,
+        td: &TopoData,
+        c: &[f64],
+        zs: (&[f64], &[f64]),
+        m_dt: u64,
+        on: bool,
+        out: &mut Vec<f64>,
+        tmp: &mut Vec<f64>,
+    ) -> f64 {
+        let (z, z_end) = zs;
         // g > 0 on the side the switch is happy with.
         let sgn = if on { 1.0 } else { -1.0 };
+        out.copy_from_slice(z);
         if sgn * dot(c, z) <= 0.0 {
-            return (0.0, z.to_vec());
+            return 0.0;
         }
+        // `out` holds the state at `lo`.
         let mut lo: u64 = 0;
-        let mut z_lo = z.to_vec();
-        let mut tmp = vec![0.0; z.len()];
         for b in (0..=TABLE_LEVELS + COARSE_LEVELS).rev() {
             let step = 1u64 << b;
             if lo + step >= m_dt {
                 continue;
             }
-            Self::apply(td, b, &z_lo, &mut tmp);
-            if sgn * dot(c, &tmp) > 0.0 {
+            Self::apply(td, b, out, tmp);
+            if sgn * dot(c, tmp) > 0.0 {
                 lo += step;
-                std::mem::swap(&mut z_lo, &mut tmp);
+                std::mem::swap(out, tmp);
             }
         }
         // One finest tick past the last good point.
         let hi = (lo + 1).min(m_dt);
         if hi == m_dt {
-            let mut out = vec![0.0; z.len()];
-            Self::prop_vec_into(td, m_dt, z, &mut out, &mut tmp);
-            (self.tick_time(hi), out)
+            out.copy_from_slice(z_end);
         } else {
-            Self::apply(td, 0, &z_lo, &mut tmp);
-            (self.tick_time(hi), tmp)
+            Self::apply(td, 0, out, tmp);
+            std::mem::swap(out, tmp);
         }
+        self.tick_time(hi)
     }
 
     /// The state at the four Gauss-Legendre nodes of a recorded piece, as
