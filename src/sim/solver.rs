@@ -1008,7 +1008,7 @@ impl Engine {
     }
 
     /// `violation` of a switch that `may_switch` at `t_s`.
-    #[inline]
+    #[inline(always)]
     fn violation_free(&self, td: &TopoData, k: usize, on: bool, z: &[f64], t_s: f64) -> f64 {
         let v: f64 = dot(&td.cond[k], z);
         if on {
