@@ -224,6 +224,8 @@ pub const MAX_TOTAL_EVENTS: usize = 60_000;
 /// Cached data of one topology.
 pub struct TopoData {
     pub topo: Topology,
+    /// The topology's key (`Engine::key` of its switch states).
+    pub key: u64,
     /// `expm(F h)` for the grid step.
     pub step: Mat,
     /// `table[i] = expm(F h / 2^i)`, i = 0..=TABLE_LEVELS.  Any time in a step,
@@ -609,6 +611,60 @@ impl TopoShare {
     }
 }
 
+/// How a switch may change state by itself: a flat copy of its element's
+/// kind made at `Engine::new`, so that the checks of every step (`may_switch`,
+/// `violation`) read one small entry instead of going through the netlist.
+#[derive(Debug, Clone, Copy)]
+enum Gate {
+    /// Changes only by command (a contactor) or never (an open device).
+    Fixed,
+    /// Turns off at a current zero, on when forward biased.
+    Diode,
+    /// Turns on only within its gate window; turns off at its end unless latched.
+    Thyristor { fire_s: f64, width_s: f64 },
+}
+
+/// `x.rem_euclid(p)`, bit for bit, without the library `fmod` when `x` is
+/// within two periods of zero (every gate check of a periodic run): there
+/// `x % p` is `x`, `x - p` or `x + p`, each exact (Sterbenz).  Otherwise,
+/// and for a `p` that is not positive and finite, the library call.
+#[inline(always)]
+fn rem_period(x: f64, p: f64) -> f64 {
+    let r = if !(p > 0.0 && p < f64::INFINITY) {
+        return x.rem_euclid(p);
+    } else if x > -p && x < p {
+        x
+    } else if x >= p && x < 2.0 * p {
+        x - p
+    } else if x > -2.0 * p && x < -p {
+        x + p
+    } else {
+        x % p
+    };
+    if r < 0.0 {
+        r + p
+    } else {
+        r
+    }
+}
+
+/// `x.round().clamp(0.0, top) as u64` for `top` at most 2^52, without the
+/// library call in the usual case: for `0 < x < top` the truncation and the
+/// fraction are exact, and the rounding is half away from zero.
+#[inline]
+fn round_ticks(x: f64, top: f64) -> u64 {
+    if x > 0.0 && x < top && top <= (1u64 << 52) as f64 {
+        let i = x as u64;
+        if x - i as f64 >= 0.5 {
+            i + 1
+        } else {
+            i
+        }
+    } else {
+        x.round().clamp(0.0, top) as u64
+    }
+}
+
 /// The engine for one circuit.
 pub struct Engine {
     pub circuit: Circuit,
@@ -628,6 +684,9 @@ pub struct Engine {
     pub n_topologies_built: usize,
     /// Times (within the period) where the march must stop: gate openings.
     gate_times: Vec<f64>,
+    /// Each switch's gate, from its element (the circuit's elements do not
+    /// change after `new`: the cached topologies depend on them too).
+    gates: Vec<Gate>,
     /// When every oscillator runs at a whole multiple `k` of the supply
     /// frequency: the unit circle of the grid (`fft::unit_circle`) and each
     /// oscillator's `k`, so that at the grid point `i` its (cos, sin) is the
@@ -685,7 +744,31 @@ impl Engine {
             }
             _ => None,
         };
+        let gates = circuit
+            .switches
+            .iter()
+            .map(|&e| match &circuit.elements[e] {
+                Element::Switch { open: true, .. }
+                | Element::Switch {
+                    kind: SwitchKind::Contactor,
+                    ..
+                } => Gate::Fixed,
+                Element::Switch {
+                    kind: SwitchKind::Diode,
+                    ..
+                } => Gate::Diode,
+                Element::Switch {
+                    kind: SwitchKind::Thyristor { fire_s, width_s },
+                    ..
+                } => Gate::Thyristor {
+                    fire_s: *fire_s,
+                    width_s: *width_s,
+                },
+                _ => Gate::Fixed,
+            })
+            .collect();
         Engine {
+            gates,
             osc_grid,
             circuit,
             period_s,
@@ -747,6 +830,7 @@ impl Engine {
         }
         let d = Arc::new(TopoData {
             topo,
+            key,
             step,
             table,
             cond,
@@ -795,7 +879,7 @@ impl Engine {
     fn ticks(&self, tau: f64) -> u64 {
         let full = 1u64 << TABLE_LEVELS;
         let top = (full << COARSE_LEVELS) as f64;
-        ((tau / self.h_s) * full as f64).round().clamp(0.0, top) as u64
+        round_ticks((tau / self.h_s) * full as f64, top)
     }
 
     /// The matrix of tick bit `b`: `expm(F h 2^(b - TABLE_LEVELS))`.
@@ -858,15 +942,12 @@ impl Engine {
         sub
     }
 
-    fn gate_active(&self, kind: &SwitchKind, t_s: f64) -> bool {
-        match kind {
-            SwitchKind::Diode => true,
-            SwitchKind::Thyristor { fire_s, width_s } => {
-                let d = (t_s - fire_s).rem_euclid(self.period_s);
-                d < *width_s || (self.period_s - d) < 1e-12 * self.period_s
-            }
-            SwitchKind::Contactor => false,
-        }
+    /// Is the gate window (from `fire_s`, `width_s` long, every period) open
+    /// at `t_s` (a stop at the window's start rounded just before it counts)?
+    #[inline(always)]
+    fn gate_active(&self, fire_s: f64, width_s: f64, t_s: f64) -> bool {
+        let d = rem_period(t_s - fire_s, self.period_s);
+        d < width_s || (self.period_s - d) < 1e-12 * self.period_s
     }
 
     /// Condition row `c` of switch `k` in topology `t`, and whether a positive
@@ -895,41 +976,40 @@ impl Engine {
         }
     }
 
-    /// Is `t_s` the end of thyristor gate `kind`'s window (within 1e-9 of a
-    /// period, far below a grid step and far above the rounding of a stop)?
-    fn gate_end(&self, kind: &SwitchKind, t_s: f64) -> bool {
-        match kind {
-            SwitchKind::Thyristor { fire_s, width_s } => {
-                let d = (t_s - fire_s - width_s).rem_euclid(self.period_s);
-                d.min(self.period_s - d) < 1e-9 * self.period_s
-            }
-            _ => false,
-        }
+    /// Is `t_s` the end of the gate window from `fire_s`, `width_s` long
+    /// (within 1e-9 of a period, far below a grid step and far above the
+    /// rounding of a stop)?
+    #[inline(always)]
+    fn gate_end(&self, fire_s: f64, width_s: f64, t_s: f64) -> bool {
+        let d = rem_period(t_s - fire_s - width_s, self.period_s);
+        d.min(self.period_s - d) < 1e-9 * self.period_s
     }
 
     /// Is switch `k` allowed to change state at time `t` (by its kind)?
+    #[inline(always)]
     fn may_switch(&self, k: usize, on: bool, t_s: f64) -> bool {
-        let e = self.circuit.switches[k];
-        match &self.circuit.elements[e] {
-            Element::Switch { kind, open, .. } => {
-                if *open {
-                    return false;
-                }
-                match kind {
-                    SwitchKind::Contactor => false,
-                    _ if on => true, // turning off: natural commutation
-                    other => self.gate_active(other, t_s) && !self.gate_end(other, t_s),
-                }
+        match self.gates[k] {
+            Gate::Fixed => false,
+            _ if on => true, // turning off: natural commutation
+            Gate::Diode => true,
+            Gate::Thyristor { fire_s, width_s } => {
+                self.gate_active(fire_s, width_s, t_s) && !self.gate_end(fire_s, width_s, t_s)
             }
-            _ => false,
         }
     }
 
     /// Violation measure of switch `k` (> 1 means it must flip).
+    #[inline]
     fn violation(&self, td: &TopoData, k: usize, on: bool, z: &[f64], t_s: f64) -> f64 {
         if !self.may_switch(k, on, t_s) {
             return 0.0;
         }
+        self.violation_free(td, k, on, z, t_s)
+    }
+
+    /// `violation` of a switch that `may_switch` at `t_s`.
+    #[inline(always)]
+    fn violation_free(&self, td: &TopoData, k: usize, on: bool, z: &[f64], t_s: f64) -> f64 {
         let v: f64 = dot(&td.cond[k], z);
         if on {
             // Latching: a thyristor whose current has not reached the
@@ -941,9 +1021,8 @@ impl Engine {
             // fired, which no real bridge does: with 30-degree gates
             // 60 degrees apart at alpha = 60 into E = 400 V on 400 V, 1.1 A
             // of DC current.
-            let e = self.circuit.switches[k];
-            if let Element::Switch { kind, .. } = &self.circuit.elements[e] {
-                if self.gate_end(kind, t_s) {
+            if let Gate::Thyristor { fire_s, width_s } = self.gates[k] {
+                if self.gate_end(fire_s, width_s, t_s) {
                     return (-v / self.i_tol_a).max(2.0 - v / self.i_tol_a);
                 }
             }
@@ -1071,21 +1150,50 @@ impl Engine {
         let mut n_ev = 0usize;
         let mut last_flip: Option<(usize, f64)> = None;
         // Topologies visited at the current instant (cycle guard at leakage level).
-        let mut visited_now: Vec<u64> = vec![Self::key(&on)];
+        let mut visited_now: Vec<u64> = vec![td.key];
         if spec.record {
-            knots.push((t, Self::key(&on), ZVec::from_slice(&z)));
+            knots.push((t, td.key, ZVec::from_slice(&z)));
         }
         let end_tol = 1e-12 * self.period_s;
+        // (period start, `lo`, earliest gate stop after `lo`): see below.
+        let mut gate_ahead = (f64::NAN, f64::NAN, f64::NAN);
+        // Scratch of the crossing search (`locate`) and of an event.
+        let mut loc_z = vec![0.0; z.len()];
+        let mut loc_tmp = vec![0.0; z.len()];
+        let mut first_z = vec![0.0; z.len()];
+        let mut on_before: Vec<bool> = Vec::with_capacity(on.len());
         while t < spec.t1_s - end_tol {
+            // `td` is always the topology of `on` (its key stands for theirs).
+            debug_assert_eq!(td.key, Self::key(&on));
             // Next stop: the next grid point, a gate opening, or the end.
             let mut t_next = ((grid_index + 1) as f64 * h).min(spec.t1_s);
             let mut at_grid = true;
-            let base = (t / self.period_s).floor() * self.period_s;
-            for &g in &self.gate_times {
-                for cand in [base + g, base + g + self.period_s] {
-                    if cand > t + end_tol && cand < t_next - end_tol {
-                        t_next = cand;
-                        at_grid = false;
+            if !self.gate_times.is_empty() {
+                let base = (t / self.period_s).floor() * self.period_s;
+                let lo = t + end_tol;
+                // The earliest gate stop after `lo`, kept while `base` holds:
+                // every candidate after a later `lo` is after it too, so when
+                // it is not before the grid point no candidate is, and the
+                // scan below would change nothing.
+                if !(gate_ahead.0 == base && lo >= gate_ahead.1 && gate_ahead.2 > lo) {
+                    let mut m = f64::INFINITY;
+                    for &g in &self.gate_times {
+                        for cand in [base + g, base + g + self.period_s] {
+                            if cand > lo && cand < m {
+                                m = cand;
+                            }
+                        }
+                    }
+                    gate_ahead = (base, lo, m);
+                }
+                if gate_ahead.2 < t_next - end_tol {
+                    for &g in &self.gate_times {
+                        for cand in [base + g, base + g + self.period_s] {
+                            if cand > t + end_tol && cand < t_next - end_tol {
+                                t_next = cand;
+                                at_grid = false;
+                            }
+                        }
                     }
                 }
             }
@@ -1113,15 +1221,18 @@ impl Engine {
             }
             Self::prop_vec_into(&td, m_dt, &z, &mut z_end, &mut z_tmp);
             // Find the earliest crossing among the switches.
-            let mut first: Option<(f64, usize, Vec<f64>)> = None;
+            // (time, switch); its state in `first_z`.
+            let mut first: Option<(f64, usize)> = None;
             // Whether any switch ends the step on the wrong side (if none, the
             // settling at the stop has nothing to do).
             let mut any_violation = false;
             for k in 0..on.len() {
-                if !self.may_switch(k, on[k], t_next) && !self.may_switch(k, on[k], t) {
+                // A switch that may not change at the stop has no violation
+                // there (`violation` is 0), so nothing to locate.
+                if !self.may_switch(k, on[k], t_next) {
                     continue;
                 }
-                let v_end = self.violation(&td, k, on[k], &z_end, t_next);
+                let v_end = self.violation_free(&td, k, on[k], &z_end, t_next);
                 if v_end <= 1.0 {
                     // On the wrong side within the tolerance at the end, after
                     // starting on the right side, and going beyond it on the
@@ -1146,7 +1257,15 @@ impl Engine {
                 } else {
                     any_violation = true;
                 }
-                let (tau, zr) = self.locate(&td, &td.cond[k], &z, m_dt, on[k]);
+                let tau = self.locate(
+                    &td,
+                    &td.cond[k],
+                    (&z, &z_end),
+                    m_dt,
+                    on[k],
+                    &mut loc_z,
+                    &mut loc_tmp,
+                );
                 // A device that flipped at this very instant and sits at its
                 // threshold (leakage-level current) is not flipped back at the
                 // same instant; the check at the next stop settles it.
@@ -1159,7 +1278,8 @@ impl Engine {
                     continue;
                 }
                 if first.as_ref().is_none_or(|f| tau < f.0) {
-                    first = Some((tau, k, zr));
+                    first = Some((tau, k));
+                    std::mem::swap(&mut first_z, &mut loc_z);
                 }
             }
             // Contactor closing by voltage.
@@ -1178,9 +1298,18 @@ impl Engine {
                     if rule.level_v.is_finite() && v_end >= rule.level_v {
                         let mut c = row.clone();
                         c[self.circuit.const_idx()] -= rule.level_v;
-                        let (tau, zr) = self.locate(&td, &c, &z, m_dt, false);
+                        let tau = self.locate(
+                            &td,
+                            &c,
+                            (&z, &z_end),
+                            m_dt,
+                            false,
+                            &mut loc_z,
+                            &mut loc_tmp,
+                        );
                         if first.as_ref().is_none_or(|f| tau < f.0) {
-                            first = Some((tau, usize::MAX, zr));
+                            first = Some((tau, usize::MAX));
+                            std::mem::swap(&mut first_z, &mut loc_z);
                         }
                     } else if rule.at_s.is_finite() && (t_next - rule.at_s).abs() < end_tol {
                         // The stop at the closing time (a grid point too: a
@@ -1190,7 +1319,8 @@ impl Engine {
                 }
             }
             match first {
-                Some((tau, k, zr)) if tau < dt - end_tol => {
+                Some((tau, k)) if tau < dt - end_tol => {
+                    let zr = &first_z;
                     // Event inside the step.
                     if tau > 0.0 {
                         visited_now.clear();
@@ -1199,7 +1329,7 @@ impl Engine {
                         pieces.push(Piece {
                             t_s: t,
                             dt_s: tau,
-                            key: Self::key(&on),
+                            key: td.key,
                             z: ZVec::from_slice(&z),
                         });
                     }
@@ -1208,12 +1338,9 @@ impl Engine {
                         Self::prop_sens(&td, m_tau, s, &mut sens_tmp);
                     }
                     t += tau;
-                    let f_old = td.topo.f.mul_vec(&zr);
-                    let c = if k == usize::MAX {
-                        None
-                    } else {
-                        Some(td.cond[k].clone())
-                    };
+                    // The topology before the flip (its `F` and the switch's
+                    // condition row, for the saltation matrix).
+                    let td_old = td.clone();
                     if k == usize::MAX {
                         self.close_contactors(&mut on, t, &mut events);
                         contactor_done = true;
@@ -1228,9 +1355,11 @@ impl Engine {
                         self.n_events += 1;
                     }
                     td = self.topo(&on)?;
-                    if let (Some(s), Some(c)) = (sens.as_mut(), c) {
-                        let f_new = td.topo.f.mul_vec(&zr);
-                        let cf = dot(&c, &f_old);
+                    if let (Some(s), true) = (sens.as_mut(), k != usize::MAX) {
+                        let c = &td_old.cond[k];
+                        let f_old = td_old.topo.f.mul_vec(zr);
+                        let f_new = td.topo.f.mul_vec(zr);
+                        let cf = dot(c, &f_old);
                         if cf.abs() > 1e-300 {
                             // S += (f+ - f-) (c^T S) / (c^T f-), over `sub`
                             // (f+ - f- is zero outside the physical states).
@@ -1248,9 +1377,11 @@ impl Engine {
                             }
                         }
                     }
-                    z = zr;
-                    visited_now.push(Self::key(&on));
-                    let on_before: Vec<bool> = on.clone();
+                    drop(td_old);
+                    std::mem::swap(&mut z, &mut first_z);
+                    visited_now.push(td.key);
+                    on_before.clear();
+                    on_before.extend_from_slice(&on);
                     td = self.settle(
                         &mut on,
                         &z,
@@ -1259,7 +1390,7 @@ impl Engine {
                         if k == usize::MAX { None } else { Some(k) },
                     )?;
                     td = self.settle_slow(&mut on, &on_before, &z, t, &mut events, td)?;
-                    visited_now.push(Self::key(&on));
+                    visited_now.push(td.key);
                     n_ev += 1;
                     self.total_events += 1;
                     if self.total_events > MAX_TOTAL_EVENTS {
@@ -1280,7 +1411,7 @@ impl Engine {
                         pieces.push(Piece {
                             t_s: t,
                             dt_s: dt,
-                            key: Self::key(&on),
+                            key: td.key,
                             z: ZVec::from_slice(&z),
                         });
                     }
@@ -1327,9 +1458,9 @@ impl Engine {
                     if any_violation || contactor_now {
                         td = self.settle(&mut on, &z, t, &mut events, None)?;
                     }
-                    visited_now.push(Self::key(&on));
+                    visited_now.push(td.key);
                     if spec.record && at_grid {
-                        knots.push((t, Self::key(&on), ZVec::from_slice(&z)));
+                        knots.push((t, td.key, ZVec::from_slice(&z)));
                     }
                 }
             }
@@ -1499,37 +1630,50 @@ impl Engine {
     /// Locate a zero of `c . expm(F tau) z` on (0, dt] (dt = `m_dt` ticks), given
     /// that it is on the far side at `dt`: bisection on the dyadic table, one
     /// matrix-vector product per level.  Returns the time just past the root (on
-    /// the far side, within one finest tick) and the state there.
-    fn locate(&self, td: &TopoData, c: &[f64], z: &[f64], m_dt: u64, on: bool) -> (f64, Vec<f64>) {
+    /// the far side, within one finest tick), and the state there in `out`.
+    /// `zs`: `z` and the state at `dt` (`prop_vec_into` of `z` by `m_dt`, which
+    /// the caller has: the answer when the root is in the last tick).  `out`
+    /// and `tmp` are scratch of `z`'s length.
+    #[allow(clippy::too_many_arguments)]
+    fn locate(
+        &self,
+        td: &TopoData,
+        c: &[f64],
+        zs: (&[f64], &[f64]),
+        m_dt: u64,
+        on: bool,
+        out: &mut Vec<f64>,
+        tmp: &mut Vec<f64>,
+    ) -> f64 {
+        let (z, z_end) = zs;
         // g > 0 on the side the switch is happy with.
         let sgn = if on { 1.0 } else { -1.0 };
+        out.copy_from_slice(z);
         if sgn * dot(c, z) <= 0.0 {
-            return (0.0, z.to_vec());
+            return 0.0;
         }
+        // `out` holds the state at `lo`.
         let mut lo: u64 = 0;
-        let mut z_lo = z.to_vec();
-        let mut tmp = vec![0.0; z.len()];
         for b in (0..=TABLE_LEVELS + COARSE_LEVELS).rev() {
             let step = 1u64 << b;
             if lo + step >= m_dt {
                 continue;
             }
-            Self::apply(td, b, &z_lo, &mut tmp);
-            if sgn * dot(c, &tmp) > 0.0 {
+            Self::apply(td, b, out, tmp);
+            if sgn * dot(c, tmp) > 0.0 {
                 lo += step;
-                std::mem::swap(&mut z_lo, &mut tmp);
+                std::mem::swap(out, tmp);
             }
         }
         // One finest tick past the last good point.
         let hi = (lo + 1).min(m_dt);
         if hi == m_dt {
-            let mut out = vec![0.0; z.len()];
-            Self::prop_vec_into(td, m_dt, z, &mut out, &mut tmp);
-            (self.tick_time(hi), out)
+            out.copy_from_slice(z_end);
         } else {
-            Self::apply(td, 0, &z_lo, &mut tmp);
-            (self.tick_time(hi), tmp)
+            Self::apply(td, 0, out, tmp);
+            std::mem::swap(out, tmp);
         }
+        self.tick_time(hi)
     }
 
     /// The state at the four Gauss-Legendre nodes of a recorded piece, as
@@ -2010,6 +2154,86 @@ mod tests {
                     }
                 }
             }
+        }
+    }
+
+    /// `rem_period` is `rem_euclid` to the bit: around every boundary of its
+    /// fast paths (0, one and two periods either side, by a few ulps), far
+    /// outside them, at signed zeros, non-finite inputs and odd periods.
+    #[test]
+    fn rem_period_is_rem_euclid() {
+        let mut checked = 0;
+        for p in [1.0 / 60.0, 0.02, 1.0, 3.0e-7, 7.5e5, f64::MIN_POSITIVE] {
+            let mut xs = vec![0.0, -0.0, 1e300, -1e300, f64::INFINITY, f64::NAN];
+            for m in [
+                -3.0, -2.0, -1.5, -1.0, -0.5, 0.0, 0.5, 1.0, 1.5, 2.0, 3.0, 1e6,
+            ] {
+                let c: f64 = m * p;
+                let mut up = c;
+                let mut down = c;
+                for _ in 0..4 {
+                    xs.push(up);
+                    xs.push(down);
+                    up = up.next_up();
+                    down = down.next_down();
+                }
+            }
+            for i in 0..2000 {
+                // A spread of times over six periods, negative ones included.
+                xs.push(p * (-3.0 + 6.0 * (i as f64 * 0.618_033_988_749_895).fract()));
+            }
+            for &x in &xs {
+                let (a, b) = (rem_period(x, p), x.rem_euclid(p));
+                assert!(
+                    a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()),
+                    "x {x:e} p {p:e}: {a:e} against {b:e}"
+                );
+                checked += 1;
+            }
+        }
+        for p in [0.0, -1.0, f64::INFINITY, f64::NAN] {
+            for x in [0.5, -0.5, 3.0] {
+                let (a, b) = (rem_period(x, p), x.rem_euclid(p));
+                assert!(a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan()));
+            }
+        }
+        assert!(checked > 10_000);
+    }
+
+    /// `round_ticks` is `x.round().clamp(0.0, top) as u64` on halves, their
+    /// neighbours, the ends of the range and beyond.
+    #[test]
+    fn round_ticks_is_round() {
+        let top = (1u64 << (TABLE_LEVELS + COARSE_LEVELS)) as f64;
+        let mut xs = vec![
+            0.0,
+            -0.0,
+            -0.5,
+            -1.0,
+            top,
+            top + 0.5,
+            1e300,
+            f64::NAN,
+            f64::INFINITY,
+        ];
+        for c in [0.5, 1.0, 1.5, 2.5, 1e6 + 0.5, top - 0.5, top - 1.5, 12345.0] {
+            let (mut up, mut down) = (c, c);
+            for _ in 0..4 {
+                xs.push(up);
+                xs.push(down);
+                up = f64::next_up(up);
+                down = f64::next_down(down);
+            }
+        }
+        for i in 0..5000 {
+            xs.push(top * (i as f64 * 0.618_033_988_749_895).fract());
+        }
+        for &x in &xs {
+            assert_eq!(
+                round_ticks(x, top),
+                x.round().clamp(0.0, top) as u64,
+                "x {x:e}"
+            );
         }
     }
 }
