@@ -5,10 +5,10 @@
 //! Within a topology `z(t0 + tau) = expm(F tau) z(t0)` exactly.  The period is
 //! marched on a uniform grid with the cached step matrix `expm(F h)`; at each
 //! grid step every switch's condition (current of an on device, voltage of an
-//! off device) is checked, and a crossing is located by safeguarded Newton on
-//! `c . expm(F tau) z`, whose derivative `c . F expm(F tau) z` is exact.  After a
-//! switch flips, the new topology is "settled": any device whose condition is
-//! now violated flips too, one at a time.
+//! off device) is checked, and a crossing is located by bisection on the
+//! dyadic table `expm(F h / 2^i)` (one matrix-vector product per level, to
+//! `h / 2^30`).  After a switch flips, the new topology is "settled": any
+//! device whose condition is now violated flips too, one at a time.
 //!
 //! Steady state: the map from the state at t = 0 to the state at t = T is
 //! smooth away from grazing events; its Jacobian is the product of the step
