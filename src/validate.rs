@@ -459,9 +459,9 @@ pub fn validate(s: &Scenario) -> Result<Vec<String>, FieldError> {
             ));
         }
     }
-    if b.kind == BridgeKind::SixPulseThyristor && b.gate_width_deg < 60.0 {
+    if b.kind == BridgeKind::SixPulseThyristor && b.gate_width_deg <= 60.0 {
         warn.push(format!(
-            "bridge.gate_width_deg: {} degrees is under 60: a six-pulse bridge needs two devices gated at once to start from zero current (common practice: wide or double pulses)",
+            "bridge.gate_width_deg: {} degrees is not over 60: a six-pulse bridge needs two devices gated at once to start from zero current, so it cannot start from rest, nor draw the separate pulses of a capacitor bus (common practice: wide or double pulses)",
             fmt(b.gate_width_deg)
         ));
     }

@@ -692,6 +692,22 @@ fn steady_from(
 /// regulators", IEEE IAS Annual Meeting 1976; the series form of the condition
 /// used here, `R_damp > L / (C R_cpl)` with `R_cpl = V^2 / P`, is common practice).
 fn explain_failure(s: &Scenario, d: &Derived, e: SolveError) -> SolveError {
+    // A six-pulse thyristor bridge whose gates never overlap cannot start a
+    // conduction pulse from zero current (a device that has not latched when
+    // its gate ends turns off: see `solver`), so every pulse of a capacitor
+    // bus is out of reach and the bus collapses under a constant-power load;
+    // that, not the filter, is the reason then.
+    if s.bridge.kind == crate::scenario::BridgeKind::SixPulseThyristor
+        && s.bridge.gate_width_deg <= 60.0
+    {
+        return SolveError {
+            reason: format!(
+                "no periodic steady state: with gates {:.0} degrees wide no two thyristors are gated at once, so the bridge cannot start a conduction pulse from zero current",
+                s.bridge.gate_width_deg
+            ),
+            hint: "widen the gate pulse to more than 60 degrees (common practice: 120-degree or double pulses)".into(),
+        };
+    }
     if let DcLoad::ConstantPower { p_w } = s.dc.load {
         let (l, c) = (
             s.dc.choke_l_h + 2.0 * (d.l_source_h + d.l_reactor_h),
