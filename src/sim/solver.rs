@@ -1023,7 +1023,8 @@ impl Engine {
             // of DC current.
             if let Gate::Thyristor { fire_s, width_s } = self.gates[k] {
                 if self.gate_end(fire_s, width_s, t_s) {
-                    return (-v / self.i_tol_a).max(2.0 - v / self.i_tol_a);
+                    // Above 1 (a flip) while the current is below the tolerance.
+                    return 2.0 - v / self.i_tol_a;
                 }
             }
             -v / self.i_tol_a
@@ -1171,10 +1172,10 @@ impl Engine {
             if !self.gate_times.is_empty() {
                 let base = (t / self.period_s).floor() * self.period_s;
                 let lo = t + end_tol;
-                // The earliest gate stop after `lo`, kept while `base` holds:
-                // every candidate after a later `lo` is after it too, so when
-                // it is not before the grid point no candidate is, and the
-                // scan below would change nothing.
+                // The earliest gate stop after `lo`, kept while `base` holds
+                // and it is still after `lo` (no stop lies between the `lo`
+                // it was found for and a later one, so it is still the
+                // earliest).
                 if !(gate_ahead.0 == base && lo >= gate_ahead.1 && gate_ahead.2 > lo) {
                     let mut m = f64::INFINITY;
                     for &g in &self.gate_times {
@@ -1186,15 +1187,11 @@ impl Engine {
                     }
                     gate_ahead = (base, lo, m);
                 }
+                // That earliest stop is the one to take when it comes before
+                // the grid point.
                 if gate_ahead.2 < t_next - end_tol {
-                    for &g in &self.gate_times {
-                        for cand in [base + g, base + g + self.period_s] {
-                            if cand > t + end_tol && cand < t_next - end_tol {
-                                t_next = cand;
-                                at_grid = false;
-                            }
-                        }
-                    }
+                    t_next = gate_ahead.2;
+                    at_grid = false;
                 }
             }
             if let Some(rule) = &spec.contactor_close {
@@ -1820,21 +1817,23 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f6
     // the end value just computed (the same row and state).
     let mut carry: Option<f64> = None;
     for (i, p) in run.pieces.iter().enumerate() {
-        if last.as_ref().is_none_or(|l| l.0 != p.key) {
-            let td = eng.topo_key(p.key)?;
-            let e = match rows.iter().position(|r| r.0 == p.key) {
-                Some(e) => e,
-                None => {
-                    rows.push((p.key, (rule.row)(&td.topo), Vec::new()));
-                    rows.len() - 1
-                }
-            };
-            last = Some((p.key, td, e));
-        }
-        let Some((_, td, e)) = &last else {
-            unreachable!()
+        let (td, e) = match &last {
+            Some((k, td, e)) if *k == p.key => (td.clone(), *e),
+            _ => {
+                let td = eng.topo_key(p.key)?;
+                let e = match rows.iter().position(|r| r.0 == p.key) {
+                    Some(e) => e,
+                    None => {
+                        rows.push((p.key, (rule.row)(&td.topo), Vec::new()));
+                        rows.len() - 1
+                    }
+                };
+                last = Some((p.key, td.clone(), e));
+                (td, e)
+            }
         };
-        let (_, row, at_level) = &mut rows[*e];
+        let td = &td;
+        let (_, row, at_level) = &mut rows[e];
         let m = eng.ticks(p.dt_s);
         let half = m / 2;
         let v_mid = if half != 0 && half.is_power_of_two() {
