@@ -116,7 +116,8 @@ const PHASE: [&str; 3] = ["a", "b", "c"];
 /// ever on together (a gate under 60 degrees wide).  Starting from zero
 /// current a pair must be gated at once, which is why six-pulse bridges get
 /// wide or double pulses (common practice; Mohan, Undeland and Robbins,
-/// *Power Electronics*, 3rd ed., sec. 6-3 on the six-pulse firing sequence).
+/// *Power Electronics*, 3rd ed., ch. 6 on the six-pulse firing sequence;
+/// the chapter from memory).
 ///
 /// Angles are `phi` of the phase-a EMF `V_p cos(phi)`, with `v_b` lagging by
 /// 120 degrees and `v_c` leading by 120.  The upper device of phase `u`
