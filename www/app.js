@@ -173,7 +173,7 @@
           when: THY,
           fields: [
             { id: "alpha_deg", path: "bridge.alpha_deg", label: "Firing angle α", unit: "°", base: "°", hint: "from the natural commutation point" },
-            { id: "gate_width_deg", path: "bridge.gate_width_deg", label: "Gate pulse width", unit: "°", base: "°", hint: "a device carrying no current when it ends turns off; six-pulse: 60° or more" },
+            { id: "gate_width_deg", path: "bridge.gate_width_deg", label: "Gate pulse width", unit: "°", base: "°", hint: "a thyristor not yet carrying current when its pulse ends turns off; six-pulse bridges need over 60°" },
           ],
         },
         {
