@@ -1,6 +1,12 @@
 // Shared launch settings for the e2e tests (Debian's Chromium and Firefox).
 import puppeteer from "puppeteer-core";
 
+// How long a browser may take to start (puppeteer's default is 30 s).  The
+// test files run side by side, so several browsers start at once on this
+// 2-core machine: on 2026-12-03 a fresh-clone `./build.sh test` had Firefox
+// not ready after 30 s once, and its whole suite was cancelled.
+const LAUNCH_TIMEOUT_MS = 120000;
+
 export const BROWSERS = [
   {
     name: "chromium",
@@ -9,6 +15,7 @@ export const BROWSERS = [
       puppeteer.launch({
         browser: "chrome",
         executablePath: exe,
+        timeout: LAUNCH_TIMEOUT_MS,
         headless: true,
         userDataDir: profile,
         args: [
@@ -29,6 +36,7 @@ export const BROWSERS = [
       puppeteer.launch({
         browser: "firefox",
         executablePath: exe,
+        timeout: LAUNCH_TIMEOUT_MS,
         headless: true,
         userDataDir: profile,
         // puppeteer relaxes this by default; with it relaxed a file:// page that
