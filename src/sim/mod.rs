@@ -754,7 +754,36 @@ pub fn simulate_from(
     d: &Derived,
     warm: Option<&WarmStart>,
 ) -> Result<SimResult, SolveError> {
-    let first = simulate_with(s, d, false, warm);
+    simulate_outputs(s, d, warm, Outputs::All)
+}
+
+/// Which outputs a simulation computes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Outputs {
+    /// Everything: every signal's samples on the grid (`t_s`), and the
+    /// harmonics of every signal that has them (an analysis).
+    #[default]
+    All,
+    /// What a sweep point's summary reads (`sweep::Summary`): no samples
+    /// (`t_s` and every signal's `samples` empty), and harmonics only of
+    /// the EMF phase voltages, the line currents and the DC bus, and of the
+    /// signals transformed with them (the FFT takes the harmonic signals two
+    /// at a time as one complex sequence, so a signal's bits depend on its
+    /// partner: a pair is kept or left out whole; every other signal's
+    /// `harmonics` is empty).  Everything else (solution, means, RMS,
+    /// extremes, power, events, warnings, warm start) is computed as with
+    /// `All`, and what is kept is the same to the bit.
+    Summary,
+}
+
+/// [`simulate_from`] computing only `outputs` (see [`Outputs`]).
+pub fn simulate_outputs(
+    s: &Scenario,
+    d: &Derived,
+    warm: Option<&WarmStart>,
+    outputs: Outputs,
+) -> Result<SimResult, SolveError> {
+    let first = simulate_with(s, d, false, warm, outputs);
     if !matches!(s.dc.load, DcLoad::ConstantPower { .. }) {
         return first;
     }
@@ -769,7 +798,7 @@ pub fn simulate_from(
     if !suspect {
         return first;
     }
-    match simulate_with(s, d, true, warm) {
+    match simulate_with(s, d, true, warm, outputs) {
         Ok(mut r) => {
             r.warnings.push(
                 "the constant-power load was solved as a current constant within the period (P / V_avg): the bus ripple is too large for its linearised model".into(),
@@ -1119,6 +1148,7 @@ fn simulate_with(
     d: &Derived,
     cpl_constant_current: bool,
     warm: Option<&WarmStart>,
+    outputs: Outputs,
 ) -> Result<SimResult, SolveError> {
     let cfg = SimConfig::from_scenario(s);
     let period = 1.0 / s.supply.f_hz;
@@ -1208,6 +1238,18 @@ fn simulate_with(
     }
     harm_signals.sort();
     harm_signals.dedup();
+    let lean = outputs == Outputs::Summary;
+    if lean {
+        // Whole pairs of the FFT loop below (signals 2j and 2j + 1; an odd
+        // last one alone), so that each kept pair is transformed as before.
+        let wanted = |i: &usize| r.phase_v.contains(i) || r.line_i.contains(i) || *i == r.v_dc;
+        harm_signals = harm_signals
+            .chunks(2)
+            .filter(|pair| pair.iter().any(wanted))
+            .flatten()
+            .copied()
+            .collect();
+    }
     let h_max = cfg.h_max as usize;
     let w = 2.0 * PI / period;
     let n_harm = harm_signals.len();
@@ -1265,10 +1307,16 @@ fn simulate_with(
     // Samples on the grid: every probe at every knot.  A knot is where the
     // piece starting there starts (same instant, topology and state), so its
     // values are that piece's start values; others are evaluated on their own.
-    let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(run.knots.len()); n_probe];
+    // (None with `Outputs::Summary`.)
+    let knots = if lean {
+        &run.knots[..0]
+    } else {
+        &run.knots[..]
+    };
+    let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(knots.len()); n_probe];
     let mut knot_vals = vec![0.0; rows];
     let mut piece_i = 0;
-    for k in &run.knots {
+    for k in knots {
         while piece_i < n_pieces && run.pieces[piece_i].t_s < k.0 {
             piece_i += 1;
         }
@@ -1441,7 +1489,7 @@ fn simulate_with(
         p_loss,
         ..
     } = acc;
-    let grid_t: Vec<f64> = run.knots.iter().map(|k| k.0).collect();
+    let grid_t: Vec<f64> = knots.iter().map(|k| k.0).collect();
     let mut signals = Vec::with_capacity(n_probe);
     for ((i, pr), samples) in built.probes.iter().enumerate().zip(samples) {
         let mean = sum[i] / period;
@@ -1528,7 +1576,7 @@ fn simulate_with(
     let warm_ok = !s.bridge.kind.is_controlled()
         && (!cpl || (v_bus.max - v_bus.min) < WARM_CPL_RIPPLE_MAX * v_bus.mean.abs());
     if warm_fits && !warm_ok {
-        return simulate_with(s, d, cpl_constant_current, None);
+        return simulate_with(s, d, cpl_constant_current, None, outputs);
     }
     let transient = if cfg.transient_cycles > 0 {
         Some(power_up(
