@@ -287,7 +287,9 @@ struct OutputForms {
 }
 
 impl OutputForms {
-    fn new(built: &Built, td: &solver::TopoData) -> OutputForms {
+    /// (`with_loss` false: `q` is zero, and so the dissipation; a sweep
+    /// point does not show the losses.)
+    fn new(built: &Built, td: &solver::TopoData, with_loss: bool) -> OutputForms {
         let t = &td.topo;
         let nz = t.f.cols;
         let n_probe = built.probes.len();
@@ -307,7 +309,12 @@ impl OutputForms {
             }
         };
         let mut vv = vec![0.0; nz];
-        for &e in &built.loss_elems {
+        let loss_elems = if with_loss {
+            &built.loss_elems[..]
+        } else {
+            &[]
+        };
+        for &e in loss_elems {
             let iv = t.elem_i.row(e);
             match built.circuit.elements[e] {
                 Element::Inductor { r_ohm, .. } => add_outer(iv, iv, r_ohm),
@@ -322,7 +329,7 @@ impl OutputForms {
             }
         }
         let g_min = built.circuit.g_min_s;
-        for nn in 1..built.circuit.n_nodes {
+        for nn in (1..built.circuit.n_nodes).filter(|_| with_loss) {
             let r = t.node_v.row(nn);
             add_outer(r, r, g_min);
         }
@@ -765,14 +772,15 @@ pub enum Outputs {
     #[default]
     All,
     /// What a sweep point's summary reads (`sweep::Summary`): no samples
-    /// (`t_s` and every signal's `samples` empty), and harmonics only of
+    /// (`t_s` and every signal's `samples` empty), no dissipation
+    /// (`p_loss_w` zero: no loss form is evaluated), and harmonics only of
     /// the EMF phase voltages, the line currents and the DC bus, and of the
     /// signals transformed with them (the FFT takes the harmonic signals two
     /// at a time as one complex sequence, so a signal's bits depend on its
     /// partner: a pair is kept or left out whole; every other signal's
     /// `harmonics` is empty).  Everything else (solution, means, RMS,
-    /// extremes, power, events, warnings, warm start) is computed as with
-    /// `All`, and what is kept is the same to the bit.
+    /// extremes, the phases' and the load's power, events, warnings, warm
+    /// start) is computed as with `All`, and is the same to the bit.
     Summary,
 }
 
@@ -1278,7 +1286,7 @@ fn simulate_with(
                 return Ok(i);
             }
             let td = eng.topo_key(key)?;
-            forms.push(OutputForms::new(&built, &td));
+            forms.push(OutputForms::new(&built, &td, !lean));
             key_form.insert(key, forms.len() - 1);
             Ok(forms.len() - 1)
         };
