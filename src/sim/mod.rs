@@ -774,11 +774,11 @@ pub enum Outputs {
     /// What a sweep point's summary reads (`sweep::Summary`): no samples
     /// (`t_s` and every signal's `samples` empty), no dissipation
     /// (`p_loss_w` zero: no loss form is evaluated), and harmonics only of
-    /// the EMF phase voltages, the line currents and the DC bus, and of the
-    /// signals transformed with them (the FFT takes the harmonic signals two
-    /// at a time as one complex sequence, so a signal's bits depend on its
-    /// partner: a pair is kept or left out whole; every other signal's
-    /// `harmonics` is empty).  Everything else (solution, means, RMS,
+    /// the line currents and the DC bus, and the fundamental of the EMF
+    /// phase voltages (the FFT takes the harmonic signals two at a time as
+    /// one complex sequence, so a signal's bits depend on its partner: a
+    /// pair is transformed or left out whole, to the larger order of the
+    /// two; every other signal's `harmonics` is empty).  Everything else (solution, means, RMS,
     /// extremes, the phases' and the load's power, events, warnings, warm
     /// start) is computed as with `All`, and is the same to the bit.
     Summary,
@@ -1259,6 +1259,21 @@ fn simulate_with(
             .collect();
     }
     let h_max = cfg.h_max as usize;
+    // The orders reported per harmonic signal: 1..=h_max, but with
+    // `Outputs::Summary` only the fundamental of the phase voltages and
+    // none of a signal kept only as an FFT partner.
+    let orders: Vec<usize> = harm_signals
+        .iter()
+        .map(|i| {
+            if !lean || r.line_i.contains(i) || *i == r.v_dc {
+                h_max
+            } else if r.phase_v.contains(i) {
+                1
+            } else {
+                0
+            }
+        })
+        .collect();
     let w = 2.0 * PI / period;
     let n_harm = harm_signals.len();
     let mut acc = Accum::new(n_probe, n_harm, h_max, w);
@@ -1465,10 +1480,13 @@ fn simulate_with(
                 let mut j = 0;
                 while j < n_harm {
                     let j2 = (j + 1).min(n_harm - 1);
-                    plan.two_real_into(seq_of(j), seq_of(j2), &mut xa, &mut xb);
+                    // The bins wanted (the FFT computes each the same
+                    // whatever the number, see `fft::pass`).
+                    let top = 1 + orders[j].max(orders[j2]);
+                    plan.two_real_into(seq_of(j), seq_of(j2), &mut xa[..top], &mut xb[..top]);
                     for (jj, x) in [(j, &xa), (j2, &xb)].into_iter().take(j2 + 1 - j) {
                         let four = &mut acc.four[jj * stride..(jj + 1) * stride];
-                        for (h, f) in four.chunks_exact_mut(2).enumerate().skip(1) {
+                        for (h, f) in four.chunks_exact_mut(2).enumerate().take(top).skip(1) {
                             let (xr, xi) = (x[h].0, -x[h].1);
                             if sj == 0 {
                                 f[0] += xr;
@@ -1503,7 +1521,7 @@ fn simulate_with(
         let mean = sum[i] / period;
         let rms = (sum2[i] / period).max(0.0).sqrt();
         let harmonics = match harm_signals.iter().position(|&x| x == i) {
-            Some(j) => (1..=h_max)
+            Some(j) => (1..=orders[j])
                 .map(|h| {
                     // a_h = 2/T int v cos, b_h = 2/T int v sin; v = A cos(h w t + phi)
                     // gives a = A cos phi, b = -A sin phi.
