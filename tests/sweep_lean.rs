@@ -20,7 +20,8 @@
 //! Cases: the 21 scenario files of `docs/examples` and
 //! `tests/ngspice/scenarios`, each swept over its supply voltage, one
 //! phase's magnitude, its load, its firing angle (thyristor bridges) and
-//! `analysis.h_max` (a whole number: set through the JSON), and random
+//! `analysis.h_max` (a whole number: set through the JSON), three of them
+//! over grids where the harmonics are direct sums, and random
 //! valid circuits (the property tests' generator) swept over their supply
 //! voltage and load.
 
@@ -259,6 +260,27 @@ fn sweeps_of_the_scenario_files_match_the_full_analysis_to_the_bit() {
         "drive from an invalid voltage",
         &mut t,
     );
+    // Grids whose length is not a product of small primes (1150, 1625:
+    // the harmonic sums by direct sums instead of the FFT) or too short for
+    // the FFT of h_max = 50 (60, 90 points: all direct).
+    for name in [
+        "drive_reactor_full.json",
+        "thyristor_a20.json",
+        "twelve_series.json",
+    ] {
+        let s = &files
+            .iter()
+            .find(|(n, _)| n.ends_with(name))
+            .expect("scenario file")
+            .1;
+        check(
+            s,
+            "analysis.grid_points",
+            &[60.0, 90.0, 1150.0, 1625.0],
+            name,
+            &mut t,
+        );
+    }
     eprintln!("scenario files: {t:?}");
     assert!(t.solved >= 300 && t.failed >= 3, "{t:?}");
 }
