@@ -778,9 +778,10 @@ pub enum Outputs {
     /// phase voltages (the FFT takes the harmonic signals two at a time as
     /// one complex sequence, so a signal's bits depend on its partner: a
     /// pair is transformed or left out whole, to the larger order of the
-    /// two; every other signal's `harmonics` is empty).  Everything else (solution, means, RMS,
-    /// extremes, the phases' and the load's power, events, warnings, warm
-    /// start) is computed as with `All`, and is the same to the bit.
+    /// two; every other signal's `harmonics` is empty).  Everything else
+    /// (solution, means, RMS, extremes, the phases' and the load's power,
+    /// events, warnings, warm start) is computed as with `All`, and is the
+    /// same to the bit (`tests/sweep_lean.rs`).
     Summary,
 }
 
