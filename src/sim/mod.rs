@@ -781,7 +781,9 @@ pub enum Outputs {
     /// two; every other signal's `harmonics` is empty).  Everything else
     /// (solution, means, RMS, extremes, the phases' and the load's power,
     /// events, warnings, warm start) is computed as with `All`, and is the
-    /// same to the bit (`tests/sweep_lean.rs`).
+    /// same to the bit (`tests/sweep_lean.rs`).  Such a result is for
+    /// `sweep`'s summary only: `results::compute`, `compliance` and the
+    /// field check read the samples, harmonics and losses it leaves out.
     Summary,
 }
 
