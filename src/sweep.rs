@@ -305,96 +305,6 @@ fn with_value_in(mut v: serde_json::Value, path: &str, value: f64) -> Result<Sce
     crate::scenario::from_value(v)
 }
 
-/// The floating-point field of `s` at the dotted `path`, when it is one
-/// that a sweep sets directly (the numeric fields of `Scenario` that hold a
-/// real number, in the variant the scenario has); `None` for others (whole
-/// numbers, absent variants, unknown paths), which go through the
-/// serialised scenario.  `Sweeper` uses it only where it agrees with
-/// [`with_value`].
-fn f64_field<'a>(s: &'a mut Scenario, path: &str) -> Option<&'a mut f64> {
-    use crate::scenario::{DcLoad, LineReactor, SourceImpedance};
-    let keys: Vec<&str> = path.split('.').collect();
-    let at = |i: &str| i.parse::<usize>().ok();
-    Some(match keys.as_slice() {
-        ["supply", "v_ll_rms_v"] => &mut s.supply.v_ll_rms_v,
-        ["supply", "f_hz"] => &mut s.supply.f_hz,
-        ["supply", "phase_magnitude_pu", i] => s.supply.phase_magnitude_pu.get_mut(at(i)?)?,
-        ["supply", "phase_angle_offset_deg", i] => {
-            s.supply.phase_angle_offset_deg.get_mut(at(i)?)?
-        }
-        ["supply", "harmonics", i, f] => {
-            let h = s.supply.harmonics.get_mut(at(i)?)?;
-            match *f {
-                "magnitude_pct" => &mut h.magnitude_pct,
-                "phase_deg" => &mut h.phase_deg,
-                _ => return None,
-            }
-        }
-        ["source", "impedance", f] => match (&mut s.source.impedance, *f) {
-            (SourceImpedance::Direct { r_ohm, .. }, "r_ohm") => r_ohm,
-            (SourceImpedance::Direct { l_h, .. }, "l_h") => l_h,
-            (SourceImpedance::Transformer { s_kva, .. }, "s_kva") => s_kva,
-            (SourceImpedance::Transformer { z_pct, .. }, "z_pct") => z_pct,
-            (SourceImpedance::Transformer { x_over_r, .. }, "x_over_r") => x_over_r,
-            (SourceImpedance::ShortCircuitMva { s_sc_mva, .. }, "s_sc_mva") => s_sc_mva,
-            (SourceImpedance::ShortCircuitMva { x_over_r, .. }, "x_over_r") => x_over_r,
-            (SourceImpedance::ShortCircuitKa { i_sc_ka, .. }, "i_sc_ka") => i_sc_ka,
-            (SourceImpedance::ShortCircuitKa { x_over_r, .. }, "x_over_r") => x_over_r,
-            _ => return None,
-        },
-        ["source", "reactor", f] => match (&mut s.source.reactor, *f) {
-            (LineReactor::Henry { l_h, .. }, "l_h") => l_h,
-            (LineReactor::Henry { r_ohm, .. }, "r_ohm") => r_ohm,
-            (LineReactor::Percent { z_pct, .. }, "z_pct") => z_pct,
-            (LineReactor::Percent { x_over_r, .. }, "x_over_r") => x_over_r,
-            _ => return None,
-        },
-        ["bridge", f] => {
-            let b = &mut s.bridge;
-            match *f {
-                "alpha_deg" => &mut b.alpha_deg,
-                "gate_width_deg" => &mut b.gate_width_deg,
-                "v_threshold_v" => &mut b.v_threshold_v,
-                "r_slope_ohm" => &mut b.r_slope_ohm,
-                "interphase_l_h" => &mut b.interphase_l_h,
-                _ => return None,
-            }
-        }
-        ["dc", "load", f] => match (&mut s.dc.load, *f) {
-            (DcLoad::Resistor { r_ohm }, "r_ohm") => r_ohm,
-            (DcLoad::Rle { r_ohm, .. }, "r_ohm") => r_ohm,
-            (DcLoad::Rle { l_h, .. }, "l_h") => l_h,
-            (DcLoad::Rle { e_v, .. }, "e_v") => e_v,
-            (DcLoad::ConstantCurrent { i_a }, "i_a") => i_a,
-            (DcLoad::ConstantPower { p_w }, "p_w") => p_w,
-            _ => return None,
-        },
-        ["dc", f] => {
-            let c = &mut s.dc;
-            match *f {
-                "choke_l_h" => &mut c.choke_l_h,
-                "choke_r_ohm" => &mut c.choke_r_ohm,
-                "cap_f" => &mut c.cap_f,
-                "cap_esr_ohm" => &mut c.cap_esr_ohm,
-                "bleed_r_ohm" => &mut c.bleed_r_ohm,
-                "precharge_r_ohm" => &mut c.precharge_r_ohm,
-                "precharge_bypass_s" => &mut c.precharge_bypass_s,
-                "precharge_bypass_pu" => &mut c.precharge_bypass_pu,
-                "cap_rth_k_per_w" => &mut c.cap_rth_k_per_w,
-                "cap_rated_life_h" => &mut c.cap_rated_life_h,
-                "cap_rated_temp_c" => &mut c.cap_rated_temp_c,
-                "ambient_c" => &mut c.ambient_c,
-                _ => return None,
-            }
-        }
-        ["analysis", "rated_power_w"] => &mut s.analysis.rated_power_w,
-        ["analysis", "demand_current_a"] => &mut s.analysis.demand_current_a,
-        ["compliance", "reactor_steps_pct", i] => s.compliance.reactor_steps_pct.get_mut(at(i)?)?,
-        ["compliance", "choke_steps_pct", i] => s.compliance.choke_steps_pct.get_mut(at(i)?)?,
-        _ => return None,
-    })
-}
-
 /// The x values of a sweep.
 pub fn xs(spec: &SweepSpec) -> Vec<f64> {
     if spec.points == 1 {
@@ -408,9 +318,7 @@ pub fn xs(spec: &SweepSpec) -> Vec<f64> {
 /// Run one sweep point on its own (a cold solve; see [`Sweeper`] for a run
 /// of points).
 pub fn point(s: &Scenario, path: &str, x: f64) -> SweepPoint {
-    // One point: set through the serialised scenario (checking the direct
-    // route would cost as much).
-    Sweeper::new_unchecked(s, path, false).point(x)
+    Sweeper::new_unchecked(s, path).point(x)
 }
 
 /// A run of sweep points over one field of one scenario.  Each point's
@@ -424,9 +332,6 @@ pub fn point(s: &Scenario, path: &str, x: f64) -> SweepPoint {
 pub struct Sweeper {
     /// The scenario as serialised, so that a point only sets one number.
     base: serde_json::Value,
-    /// The scenario itself when `path` names a field that is set directly
-    /// (see `f64_field`), checked against the serialised route.
-    direct: Option<Scenario>,
     path: String,
     /// The last two solved points (x, their warm starts), newest last.
     solved: Vec<(f64, crate::sim::WarmStart)>,
@@ -438,44 +343,18 @@ impl Sweeper {
     pub fn new(s: &Scenario, path: &str) -> Result<Sweeper, String> {
         // Any value will do to check the path (scenario parsing checks no ranges).
         with_value(s, path, 1.0)?;
-        Ok(Sweeper::new_unchecked(s, path, true))
+        Ok(Sweeper::new_unchecked(s, path))
     }
 
-    /// A sweeper (`try_direct`: set the field directly where that agrees).
-    fn new_unchecked(s: &Scenario, path: &str, try_direct: bool) -> Sweeper {
+    fn new_unchecked(s: &Scenario, path: &str) -> Sweeper {
         let mut base = s.clone();
         base.analysis.transient_cycles = 0;
         base.compliance.search_fixes = false;
-        let value = serde_json::to_value(&base).unwrap_or_default();
-        // The field is set directly only where that gives the scenario the
-        // serialised route gives (two values tried: a path that names no
-        // floating-point field, or another one, fails this).
-        let agrees = |x: f64| {
-            let mut t = base.clone();
-            f64_field(&mut t, path).map(|f| *f = x).is_some()
-                && with_value_in(value.clone(), path, x).as_ref() == Ok(&t)
-        };
-        let direct = (try_direct && agrees(0.123_456_789) && agrees(-98_765.432_1)).then_some(base);
         Sweeper {
-            base: value,
-            direct,
+            base: serde_json::to_value(&base).unwrap_or_default(),
             path: path.to_string(),
             solved: Vec::new(),
         }
-    }
-
-    /// The scenario with the field set to `x`.
-    fn scenario_at(&self, x: f64) -> Result<Scenario, String> {
-        // A finite number is what the serialised route sets exactly (it
-        // turns others into errors).
-        if let (Some(base), true) = (&self.direct, x.is_finite()) {
-            let mut s = base.clone();
-            if let Some(f) = f64_field(&mut s, &self.path) {
-                *f = x;
-                return Ok(s);
-            }
-        }
-        with_value_in(self.base.clone(), &self.path, x)
     }
 
     /// The point with the field set to `x`.  A failing point carries its
@@ -488,8 +367,7 @@ impl Sweeper {
             [(_, w1)] => Some(w1.clone()),
             _ => None,
         };
-        let analysed = self
-            .scenario_at(x)
+        let analysed = with_value_in(self.base.clone(), &self.path, x)
             .and_then(|sc| lean_analysis(&sc, warm.as_ref()));
         match analysed {
             Ok(a) => {
@@ -529,7 +407,7 @@ impl Sweeper {
 pub fn sweep(s: &Scenario, spec: &SweepSpec) -> Result<Vec<SweepPoint>, String> {
     // Check the path once before running.
     with_value(s, &spec.path, spec.from)?;
-    let mut run = Sweeper::new_unchecked(s, &spec.path, true);
+    let mut run = Sweeper::new_unchecked(s, &spec.path);
     Ok(xs(spec).into_iter().map(|x| run.point(x)).collect())
 }
 
@@ -578,126 +456,6 @@ mod tests {
         assert_eq!(xs(&s), vec![1000.0, 2000.0, 3000.0, 4000.0, 5000.0]);
         assert!(parse_vary("dc.load.p_w=1:2").is_err());
         assert!(parse_vary("x=a:2:3").is_err());
-    }
-
-    /// Every dotted path to a number in `v`, with whether it is a float.
-    fn number_paths(v: &serde_json::Value, at: String, out: &mut Vec<(String, bool)>) {
-        let join = |k: &str| {
-            if at.is_empty() {
-                k.to_string()
-            } else {
-                format!("{at}.{k}")
-            }
-        };
-        match v {
-            serde_json::Value::Object(m) => {
-                for (k, x) in m {
-                    number_paths(x, join(k), out);
-                }
-            }
-            serde_json::Value::Array(a) => {
-                for (i, x) in a.iter().enumerate() {
-                    number_paths(x, join(&i.to_string()), out);
-                }
-            }
-            serde_json::Value::Number(n) => out.push((at, n.is_f64())),
-            _ => {}
-        }
-    }
-
-    /// A sweep sets every real-number field of a scenario directly, in
-    /// every variant of the source, reactor and load, and it is what the
-    /// serialised route gives (`Sweeper` checks two values when it is made;
-    /// here a third); whole-number fields go through the serialised route.
-    #[test]
-    fn every_real_field_is_set_directly_as_through_json() {
-        use crate::scenario::{DcLoad, LineReactor, SourceImpedance, VoltageHarmonic};
-        let mut cases = Vec::new();
-        let impedances = [
-            SourceImpedance::Direct {
-                r_ohm: 0.01,
-                l_h: 1e-4,
-            },
-            SourceImpedance::Transformer {
-                s_kva: 500.0,
-                z_pct: 6.0,
-                x_over_r: 8.0,
-            },
-            SourceImpedance::ShortCircuitMva {
-                s_sc_mva: 20.0,
-                x_over_r: 9.0,
-            },
-            SourceImpedance::ShortCircuitKa {
-                i_sc_ka: 25.0,
-                x_over_r: 9.0,
-            },
-        ];
-        let reactors = [
-            LineReactor::None,
-            LineReactor::Henry {
-                l_h: 1e-3,
-                r_ohm: 0.01,
-            },
-            LineReactor::Percent {
-                z_pct: 3.0,
-                x_over_r: 30.0,
-            },
-        ];
-        let loads = [
-            DcLoad::Resistor { r_ohm: 10.0 },
-            DcLoad::Rle {
-                r_ohm: 2.0,
-                l_h: 0.01,
-                e_v: 200.0,
-            },
-            DcLoad::ConstantCurrent { i_a: 50.0 },
-            DcLoad::ConstantPower { p_w: 30e3 },
-        ];
-        for (k, imp) in impedances.iter().enumerate() {
-            let mut s = Scenario::default();
-            s.source.impedance = imp.clone();
-            s.source.reactor = reactors[k % 3].clone();
-            s.dc.load = loads[k].clone();
-            s.supply.harmonics.push(VoltageHarmonic {
-                order: 5,
-                magnitude_pct: 2.0,
-                phase_deg: 10.0,
-            });
-            s.bridge.open_device = Some(2);
-            cases.push(s);
-        }
-        let (mut direct, mut serialised) = (0, 0);
-        for s in &cases {
-            let mut paths = Vec::new();
-            number_paths(&serde_json::to_value(s).unwrap(), String::new(), &mut paths);
-            for (path, real) in paths {
-                let run = Sweeper::new(s, &path).unwrap();
-                assert_eq!(run.direct.is_some(), real, "{path}");
-                if real {
-                    direct += 1;
-                    let mut t = run.direct.clone().unwrap();
-                    *f64_field(&mut t, &path).unwrap() = 4.25e-3;
-                    assert_eq!(Ok(t), with_value_in(run.base.clone(), &path, 4.25e-3));
-                    assert_eq!(
-                        run.scenario_at(4.25e-3),
-                        with_value_in(run.base.clone(), &path, 4.25e-3)
-                    );
-                } else {
-                    serialised += 1;
-                }
-            }
-        }
-        // Every real field of the scenario format met (compliance step
-        // lists included), and the whole numbers (h_max, grid points, order...).
-        assert!(direct >= 160 && serialised >= 28, "{direct} {serialised}");
-        // Not a number where the serialised route says so, direct or not.
-        let run = Sweeper::new(&cases[0], "supply.v_ll_rms_v").unwrap();
-        assert!(run.direct.is_some());
-        assert_eq!(
-            run.scenario_at(f64::NAN),
-            with_value_in(run.base.clone(), "supply.v_ll_rms_v", f64::NAN)
-        );
-        assert!(run.scenario_at(f64::INFINITY).is_err());
     }
 
     #[test]

@@ -1,7 +1,6 @@
 //! A sweep point computes only what its summary shows (`sweep::Sweeper`:
 //! the simulation with `sim::Outputs::Summary`, the summary from the
-//! simulation without the results and compliance tables, and a real-number
-//! field set in the scenario directly instead of through its JSON).  That is a fast path; its oracle
+//! simulation without the results and compliance tables).  That is a fast path; its oracle
 //! is the full analysis it replaces, whose figures are checked against
 //! closed forms, standards and ngspice elsewhere (`tests/engine_*.rs`,
 //! `tests/compliance.rs`, `tests/ngspice/`).  The fast path must give the
