@@ -1265,7 +1265,11 @@ fn simulate_with(
     // Samples on the grid: every probe at every knot.  A knot is where the
     // piece starting there starts (same instant, topology and state), so its
     // values are that piece's start values; others are evaluated on their own.
-    let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(run.knots.len()); n_probe];
+    // (Each made with its capacity: `vec![v; n]` clones `v`, and a clone
+    // of an empty vector has none, so every sample vector grew by doubling.)
+    let mut samples: Vec<Vec<f64>> = (0..n_probe)
+        .map(|_| Vec::with_capacity(run.knots.len()))
+        .collect();
     let mut knot_vals = vec![0.0; rows];
     let mut piece_i = 0;
     for k in &run.knots {
