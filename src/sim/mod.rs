@@ -1304,34 +1304,38 @@ fn simulate_with(
         start_vals.extend_from_slice(&vals[..n_probe]);
         start_vals.push(q);
     }
-    let start_of = |i: usize| &start_vals[i * (n_probe + 1)..][..n_probe];
-    let start_q = |i: usize| start_vals[i * (n_probe + 1) + n_probe];
     // Samples on the grid: every probe at every knot.  A knot is where the
     // piece starting there starts (same instant, topology and state), so its
-    // values are that piece's start values; others are evaluated on their own.
-    // (Each made with its capacity: `vec![v; n]` clones `v`, and a clone
-    // of an empty vector has none, so every sample vector grew by doubling.)
-    let mut samples: Vec<Vec<f64>> = (0..n_probe)
-        .map(|_| Vec::with_capacity(run.knots.len()))
-        .collect();
-    let mut knot_vals = vec![0.0; rows];
+    // values are that piece's start values; others are evaluated on their own
+    // (records after the pieces' in `start_vals`; `knot_rec` holds where
+    // each knot's record starts).  Each probe's samples are
+    // then gathered in one pass (pushed a knot at a time into every probe's
+    // vector they cost more).
+    let rec_len = n_probe + 1;
+    let mut knot_rec = Vec::with_capacity(run.knots.len());
     let mut piece_i = 0;
     for k in &run.knots {
         while piece_i < n_pieces && run.pieces[piece_i].t_s < k.0 {
             piece_i += 1;
         }
-        let v: &[f64] = match run.pieces.get(piece_i) {
-            Some(p) if p.t_s == k.0 && p.key == k.1 && p.z == k.2 => start_of(piece_i),
+        match run.pieces.get(piece_i) {
+            Some(p) if p.t_s == k.0 && p.key == k.1 && p.z == k.2 => {
+                knot_rec.push(piece_i * rec_len)
+            }
             _ => {
                 let fi = form_of(k.1, &mut eng, &mut forms)?;
-                forms[fi].eval(&k.2, &mut knot_vals);
-                &knot_vals[..n_probe]
+                let q = forms[fi].eval(&k.2, &mut vals);
+                knot_rec.push(start_vals.len());
+                start_vals.extend_from_slice(&vals[..n_probe]);
+                start_vals.push(q);
             }
-        };
-        for (smp, x) in samples.iter_mut().zip(v) {
-            smp.push(*x);
         }
     }
+    let samples: Vec<Vec<f64>> = (0..n_probe)
+        .map(|j| knot_rec.iter().map(|&at| start_vals[at + j]).collect())
+        .collect();
+    let start_of = |i: usize| &start_vals[i * rec_len..][..n_probe];
+    let start_q = |i: usize| start_vals[i * rec_len + n_probe];
     // Min and max leave out the stiff transients after switchings, with
     // the settled right-hand limits in their place (see `settling_windows`).
     let (mut windows, settled) =
