@@ -1132,12 +1132,15 @@ fn put_step<'a, const NEW0: bool, const NEW1: bool>(
     w: [f64; 2],
     v: [&[f64]; 3],
 ) {
+    // (Cut to one length, so that one bounds check serves all three.)
+    let n = v[0].len().min(v[1].len()).min(v[2].len());
+    let (v0, v1, v2) = (&v[0][..n], &v[1][..n], &v[2][..n]);
     for ((kn, md), &si) in runs.zip(harm_signals) {
         let a = if NEW0 { 0.0 } else { kn[k] };
-        kn[k] = a + w[0] * v[0][si];
+        kn[k] = a + w[0] * v0[si];
         let b = if NEW1 { 0.0 } else { kn[k1] };
-        kn[k1] = b + w[0] * v[2][si];
-        md[k] = w[1] * v[1][si];
+        kn[k1] = b + w[0] * v2[si];
+        md[k] = w[1] * v1[si];
     }
 }
 
