@@ -260,7 +260,7 @@ fn scaling(path: &str, budget: Duration) -> Value {
     }
     let (spath, from, to) = load_sweep(&s);
     let mut sw = Vec::new();
-    for points in [10usize, 100, 1000] {
+    for points in [10usize, 100, 200, 1000] {
         let spec = SweepSpec {
             path: spath.into(),
             from,
@@ -270,7 +270,7 @@ fn scaling(path: &str, budget: Duration) -> Value {
         let mut failed = 0;
         let reps = match points {
             10 => 5,
-            100 => 3,
+            100 | 200 => 3,
             _ => 1,
         };
         let st = time_it(

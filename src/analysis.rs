@@ -91,19 +91,21 @@ pub fn alpha_rad(s: &Scenario) -> f64 {
     }
 }
 
-/// Analyse one scenario.
-pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
-    analyze_from(s, None)
+/// What an analysis finds before it simulates (see [`prepare`]).
+pub(crate) struct Prepared {
+    /// The input checks' warnings.
+    pub warnings: Vec<String>,
+    pub derived: Derived,
+    /// DC current the closed forms are evaluated at, A.
+    pub id: f64,
+    pub textbook: TextbookResult,
 }
 
-/// [`analyze`] with the simulation started from a nearby solution (a
-/// sweep's previous point: `analysis.sim.warm_start`); see
-/// [`crate::sim::WarmStart`].
-pub fn analyze_from(
-    s: &Scenario,
-    warm: Option<&crate::sim::WarmStart>,
-) -> Result<Analysis, FieldError> {
-    let mut warnings = crate::validate::validate(s)?;
+/// The input checks, the derived parameters and the closed forms of `s`:
+/// the start of every analysis, and of every sweep point (which must fail
+/// where the analysis fails, with its error).
+pub(crate) fn prepare(s: &Scenario) -> Result<Prepared, FieldError> {
+    let warnings = crate::validate::validate(s)?;
     let derived = params::derive(s)?;
     crate::compliance::validate(&s.compliance)?;
     let id = textbook_dc_current(s, &derived).unwrap_or(0.0);
@@ -116,6 +118,32 @@ pub fn analyze_from(
         i_d_a: id,
         h_max: s.analysis.h_max.clamp(1, 100),
     })?;
+    Ok(Prepared {
+        warnings,
+        derived,
+        id,
+        textbook,
+    })
+}
+
+/// Analyse one scenario.
+pub fn analyze(s: &Scenario) -> Result<Analysis, FieldError> {
+    analyze_from(s, None)
+}
+
+/// [`analyze`] with the simulation started from a nearby solution (a
+/// sweep's previous point: `analysis.sim.warm_start`); see
+/// [`crate::sim::WarmStart`].
+pub fn analyze_from(
+    s: &Scenario,
+    warm: Option<&crate::sim::WarmStart>,
+) -> Result<Analysis, FieldError> {
+    let Prepared {
+        mut warnings,
+        derived,
+        id,
+        textbook,
+    } = prepare(s)?;
     let (sim, results) = match crate::sim::simulate_from(s, &derived, warm) {
         Ok(sim) => {
             warnings.extend(sim.warnings.iter().cloned());

@@ -19,7 +19,7 @@
 
 use crate::params::Derived;
 use crate::scenario::{BridgeKind, Scenario};
-use crate::sim::{Harmonic, SimResult};
+use crate::sim::{Harmonic, Signal, SimResult};
 use crate::textbook::TextbookResult;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::SQRT_2;
@@ -213,53 +213,48 @@ pub const VOLTAGE_CLASSES_V: [f64; 16] = [
 /// (common practice: 2 to 2.5 times; 2.5 is used to choose).
 pub const VOLTAGE_CLASS_FACTOR: f64 = 2.5;
 
-/// Compute the results.
-pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) -> Results {
-    let r = &sim.roles;
-    let sig = |i: usize| &sim.signals[i];
-    let f = s.supply.f_hz;
-    let names = ["a", "b", "c"];
-    // Demand current: the user's IL, else the rated fundamental current (IEEE 519
-    // asks for the maximum demand load current; the rating stands in for it).
-    let demand = if s.analysis.demand_current_a > 0.0 {
+/// Demand current IL for TDD, A: the user's IL, else the rated fundamental
+/// current (IEEE 519 asks for the maximum demand load current; the rating
+/// stands in for it), else the simulated fundamental of phase a.
+pub(crate) fn demand_current(s: &Scenario, d: &Derived, sim: &SimResult) -> f64 {
+    if s.analysis.demand_current_a > 0.0 {
         s.analysis.demand_current_a
     } else if d.rated_current_a > 0.0 {
         d.rated_current_a
     } else {
-        sig(r.line_i[0])
+        sim.signals[sim.roles.line_i[0]]
             .harmonics
             .first()
             .map(|h| h.rms)
             .unwrap_or(1.0)
-    };
-    let mut line_currents = Vec::new();
-    for k in 0..3 {
-        let si = sig(r.line_i[k]);
-        let i1 = si.harmonics.first().map(|h| h.rms).unwrap_or(0.0);
-        let hsum: f64 = si
-            .harmonics
-            .iter()
-            .skip(1)
-            .map(|h| h.rms * h.rms)
-            .sum::<f64>()
-            .sqrt();
-        line_currents.push(CurrentSpectrum {
-            phase: names[k].into(),
-            rms_a: si.rms,
-            fundamental_a: i1,
-            thd_pct: if i1 > 1e-9 * demand {
-                100.0 * hsum / i1
-            } else {
-                0.0
-            },
-            tdd_pct: 100.0 * hsum / demand,
-            rows: rows(&si.harmonics),
-        });
     }
-    let thd_max_pct = line_currents.iter().map(|c| c.thd_pct).fold(0.0, f64::max);
-    let tdd_max_pct = line_currents.iter().map(|c| c.tdd_pct).fold(0.0, f64::max);
+}
 
-    // Power per phase at the EMF.
+/// A line current's fundamental (A), THD and TDD against `demand` (percent),
+/// as defined at the top of this file.
+pub(crate) fn line_distortion(si: &Signal, demand: f64) -> (f64, f64, f64) {
+    let i1 = si.harmonics.first().map(|h| h.rms).unwrap_or(0.0);
+    let hsum: f64 = si
+        .harmonics
+        .iter()
+        .skip(1)
+        .map(|h| h.rms * h.rms)
+        .sum::<f64>()
+        .sqrt();
+    let thd = if i1 > 1e-9 * demand {
+        100.0 * hsum / i1
+    } else {
+        0.0
+    };
+    (i1, thd, 100.0 * hsum / demand)
+}
+
+/// Power figures of each phase at the EMF, and the total (definitions at
+/// the top of this file).
+pub(crate) fn power_figures(sim: &SimResult) -> (Vec<PowerFigures>, PowerFigures) {
+    let r = &sim.roles;
+    let sig = |i: usize| &sim.signals[i];
+    let names = ["a", "b", "c"];
     let mut power = Vec::new();
     let (mut tp, mut ts, mut tp1, mut tq1) = (0.0, 0.0, 0.0, 0.0);
     for k in 0..3 {
@@ -306,49 +301,30 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
             0.0
         },
     };
+    (power, total)
+}
 
-    // DC side.
-    let v = sig(r.v_dc);
-    let i = sig(r.i_dc);
+/// The DC bus ripple: its RMS (the definition at the top of this file) and
+/// the frequency of its largest harmonic, Hz (`f_hz` the supply's).
+pub(crate) fn ripple(v: &Signal, f_hz: f64) -> (f64, f64) {
     let ripple_rms = (v.rms * v.rms - v.mean * v.mean).max(0.0).sqrt();
     let dom = v
         .harmonics
         .iter()
         .max_by(|a, b| a.rms.total_cmp(&b.rms))
-        .map(|h| h.order as f64 * f)
+        .map(|h| h.order as f64 * f_hz)
         .unwrap_or(0.0);
-    let i_floor = 1e-4 * i.rms.max(1e-12);
-    let conduction = if i.min > i_floor {
-        "continuous"
-    } else {
-        "discontinuous"
-    };
-    let dc = DcFigures {
-        v_avg_v: v.mean,
-        v_rms_v: v.rms,
-        v_min_v: v.min,
-        v_max_v: v.max,
-        ripple_pp_v: v.max - v.min,
-        ripple_rms_v: ripple_rms,
-        ripple_factor: if v.mean.abs() > 0.0 {
-            ripple_rms / v.mean.abs()
-        } else {
-            0.0
-        },
-        ripple_dominant_hz: dom,
-        i_avg_a: i.mean,
-        i_rms_a: i.rms,
-        conduction: conduction.into(),
-        overlap_deg: overlap_deg(sim),
-        v_harmonics: rows_of_dc(&v.harmonics, v.mean),
-        p_load_w: sim.p_load_w,
-    };
+    (ripple_rms, dom)
+}
 
-    // Devices.
+/// Every device's ratings, and the worst reverse or blocking voltage over
+/// them, V.
+pub(crate) fn device_ratings(s: &Scenario, sim: &SimResult) -> (Vec<DeviceRating>, f64) {
+    let sig = |i: usize| &sim.signals[i];
     let v_th = s.bridge.v_threshold_v.max(0.0);
     let r_on = s.bridge.r_slope_ohm.max(0.0);
     let mut devices = Vec::new();
-    for (n, &(ip, vp)) in r.devices.iter().enumerate() {
+    for (n, &(ip, vp)) in sim.roles.devices.iter().enumerate() {
         let ci = sig(ip);
         let cv = sig(vp);
         let open = s.bridge.open_device == Some(n);
@@ -380,6 +356,69 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
             })
         })
         .fold(0.0, f64::max);
+    (devices, worst_v)
+}
+
+/// Compute the results.
+pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) -> Results {
+    let r = &sim.roles;
+    let sig = |i: usize| &sim.signals[i];
+    let f = s.supply.f_hz;
+    let names = ["a", "b", "c"];
+    let demand = demand_current(s, d, sim);
+    let mut line_currents = Vec::new();
+    for k in 0..3 {
+        let si = sig(r.line_i[k]);
+        let (i1, thd_pct, tdd_pct) = line_distortion(si, demand);
+        line_currents.push(CurrentSpectrum {
+            phase: names[k].into(),
+            rms_a: si.rms,
+            fundamental_a: i1,
+            thd_pct,
+            tdd_pct,
+            rows: rows(&si.harmonics),
+        });
+    }
+    let thd_max_pct = line_currents.iter().map(|c| c.thd_pct).fold(0.0, f64::max);
+    let tdd_max_pct = line_currents.iter().map(|c| c.tdd_pct).fold(0.0, f64::max);
+
+    // Power per phase at the EMF.
+    let (power, total) = power_figures(sim);
+    let (tp, ts) = (total.p_w, total.s_va);
+
+    // DC side.
+    let v = sig(r.v_dc);
+    let i = sig(r.i_dc);
+    let (ripple_rms, dom) = ripple(v, f);
+    let i_floor = 1e-4 * i.rms.max(1e-12);
+    let conduction = if i.min > i_floor {
+        "continuous"
+    } else {
+        "discontinuous"
+    };
+    let dc = DcFigures {
+        v_avg_v: v.mean,
+        v_rms_v: v.rms,
+        v_min_v: v.min,
+        v_max_v: v.max,
+        ripple_pp_v: v.max - v.min,
+        ripple_rms_v: ripple_rms,
+        ripple_factor: if v.mean.abs() > 0.0 {
+            ripple_rms / v.mean.abs()
+        } else {
+            0.0
+        },
+        ripple_dominant_hz: dom,
+        i_avg_a: i.mean,
+        i_rms_a: i.rms,
+        conduction: conduction.into(),
+        overlap_deg: overlap_deg(sim),
+        v_harmonics: rows_of_dc(&v.harmonics, v.mean),
+        p_load_w: sim.p_load_w,
+    };
+
+    // Devices.
+    let (devices, worst_v) = device_ratings(s, sim);
     let peak_line = SQRT_2
         * s.supply.v_ll_rms_v
         * s.supply
@@ -474,7 +513,7 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
 /// Mean overlap: for each turn-on of a device, the time until another device
 /// of the same group (upper or lower, same bridge) turns off, when that comes
 /// within 60 degrees.
-fn overlap_deg(sim: &SimResult) -> Option<f64> {
+pub(crate) fn overlap_deg(sim: &SimResult) -> Option<f64> {
     let t = sim.period_s;
     let group = |name: &str| -> (char, String) {
         let last = name.chars().last().unwrap_or('+');

@@ -1,8 +1,12 @@
 //! Sweeps: any scenario field varied over a range, with the headline results
 //! at each point, and the headline summary of one analysis.
 
-use crate::analysis::{analyze_from, Analysis};
+use crate::analysis::{prepare, Analysis, Prepared};
+use crate::params::Derived;
+use crate::results;
 use crate::scenario::Scenario;
+use crate::sim::{SimResult, WarmStart};
+use crate::textbook::TextbookResult;
 use serde::{Deserialize, Serialize};
 
 /// Headline figures of one analysis (what a user checks first).
@@ -123,6 +127,95 @@ pub fn summarize(a: &Analysis) -> Option<Summary> {
     })
 }
 
+/// [`summarize`] of the analysis of `s` whose simulation is `sim`, computed
+/// from the simulation alone (no `results::compute`, no compliance), with
+/// the same functions and in the same order, so the same to the bit (a
+/// sweep point's simulation may be `sim::Outputs::Summary`: what is read
+/// here is what that keeps; `tests/sweep_lean.rs` checks both).
+fn summary_of(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) -> Summary {
+    let r = &sim.roles;
+    let sig = |i: usize| &sim.signals[i];
+    let demand = results::demand_current(s, d, sim);
+    // Folded as `summarize` folds `results.line_currents`.
+    let (mut lc, mut thd_max, mut tdd_max) = ((0.0f64, 0.0f64), 0.0f64, 0.0f64);
+    for &k in &r.line_i {
+        let si = sig(k);
+        let (i1, thd, tdd) = results::line_distortion(si, demand);
+        lc = (lc.0.max(si.rms), lc.1.max(i1));
+        thd_max = f64::max(thd_max, thd);
+        tdd_max = f64::max(tdd_max, tdd);
+    }
+    let (_, total) = results::power_figures(sim);
+    let v = sig(r.v_dc);
+    let (ripple_rms, dom) = results::ripple(v, s.supply.f_hz);
+    let (devices, worst_v) = results::device_ratings(s, sim);
+    Summary {
+        v_dc_avg_v: v.mean,
+        v_dc_ripple_pp_v: v.max - v.min,
+        v_dc_ripple_rms_v: ripple_rms,
+        ripple_dominant_hz: dom,
+        i_dc_avg_a: sig(r.i_dc).mean,
+        i_line_rms_a: lc.0,
+        i_line_fundamental_a: lc.1,
+        thd_max_pct: thd_max,
+        tdd_max_pct: tdd_max,
+        power_factor: total.power_factor,
+        displacement_factor: total.displacement_factor,
+        p_in_w: total.p_w,
+        p_dc_w: sim.p_load_w,
+        overlap_deg: results::overlap_deg(sim).unwrap_or(0.0),
+        device_i_peak_a: devices.iter().map(|d| d.i_peak_a).fold(0.0, f64::max),
+        device_i_rms_a: devices.iter().map(|d| d.i_rms_a).fold(0.0, f64::max),
+        device_v_peak_v: worst_v,
+        cap_i_rms_a: r.i_cap.map(|c| sig(c).rms).unwrap_or(0.0),
+        textbook_v_dc_v: tb.vd_v,
+    }
+}
+
+/// What a sweep point keeps of the analysis of its scenario.
+struct Outcome {
+    /// `summarize` of the analysis.
+    summary: Option<Summary>,
+    /// The analysis's first warning (a failed point's reason).
+    first_warning: Option<String>,
+    /// The simulation solved.
+    solved: bool,
+    warm_start: Option<WarmStart>,
+}
+
+/// The analysis of `s` (from `warm`) as far as a sweep point shows it:
+/// [`prepare`] as in `analyze_from` (the same errors), the simulation with
+/// `sim::Outputs::Summary`, and [`summary_of`] instead of the results and
+/// the compliance assessment.
+fn lean_analysis(s: &Scenario, warm: Option<&WarmStart>) -> Result<Outcome, String> {
+    let Prepared {
+        mut warnings,
+        derived,
+        textbook,
+        ..
+    } = prepare(s).map_err(|e| e.to_string())?;
+    Ok(
+        match crate::sim::simulate_outputs(s, &derived, warm, crate::sim::Outputs::Summary) {
+            Ok(sim) => Outcome {
+                summary: Some(summary_of(s, &derived, &sim, &textbook)),
+                first_warning: None,
+                solved: true,
+                warm_start: sim.warm_start,
+            },
+            Err(e) => {
+                // `analyze_from`'s warnings: the input checks', then this.
+                warnings.push(format!("simulation: {e}"));
+                Outcome {
+                    summary: None,
+                    first_warning: warnings.into_iter().next(),
+                    solved: false,
+                    warm_start: None,
+                }
+            }
+        },
+    )
+}
+
 /// What to vary.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct SweepSpec {
@@ -234,7 +327,8 @@ pub fn point(s: &Scenario, path: &str, x: f64) -> SweepPoint {
 /// A point leaves out what the summary does not show: the power-up
 /// transient (`analysis.transient_cycles` is set to 0) and the compliance
 /// fix search (`compliance.search_fixes` off), each of which costs whole
-/// extra simulations.
+/// extra simulations; and of the analysis itself it computes only what
+/// [`summarize`] reads (see `lean_analysis`): the same summary to the bit.
 pub struct Sweeper {
     /// The scenario as serialised, so that a point only sets one number.
     base: serde_json::Value,
@@ -274,10 +368,10 @@ impl Sweeper {
             _ => None,
         };
         let analysed = with_value_in(self.base.clone(), &self.path, x)
-            .and_then(|sc| analyze_from(&sc, warm.as_ref()).map_err(|e| e.to_string()));
+            .and_then(|sc| lean_analysis(&sc, warm.as_ref()));
         match analysed {
             Ok(a) => {
-                match a.sim.as_ref().and_then(|r| r.warm_start.clone()) {
+                match a.warm_start {
                     Some(w) => {
                         if self.solved.len() == 2 {
                             self.solved.remove(0);
@@ -286,16 +380,19 @@ impl Sweeper {
                     }
                     // A solved point that leaves no warm start: the next
                     // point starts cold (no prediction from older points).
-                    None if a.sim.is_some() => self.solved.clear(),
+                    None if a.solved => self.solved.clear(),
                     None => {}
                 }
-                let summary = summarize(&a);
-                let error = if summary.is_none() {
-                    a.warnings.first().cloned()
+                let error = if a.summary.is_none() {
+                    a.first_warning
                 } else {
                     None
                 };
-                SweepPoint { x, summary, error }
+                SweepPoint {
+                    x,
+                    summary: a.summary,
+                    error,
+                }
             }
             Err(e) => SweepPoint {
                 x,

@@ -287,7 +287,9 @@ struct OutputForms {
 }
 
 impl OutputForms {
-    fn new(built: &Built, td: &solver::TopoData) -> OutputForms {
+    /// (`with_loss` false: `q` is zero, and so the dissipation; a sweep
+    /// point does not show the losses.)
+    fn new(built: &Built, td: &solver::TopoData, with_loss: bool) -> OutputForms {
         let t = &td.topo;
         let nz = t.f.cols;
         let n_probe = built.probes.len();
@@ -307,7 +309,12 @@ impl OutputForms {
             }
         };
         let mut vv = vec![0.0; nz];
-        for &e in &built.loss_elems {
+        let loss_elems = if with_loss {
+            &built.loss_elems[..]
+        } else {
+            &[]
+        };
+        for &e in loss_elems {
             let iv = t.elem_i.row(e);
             match built.circuit.elements[e] {
                 Element::Inductor { r_ohm, .. } => add_outer(iv, iv, r_ohm),
@@ -322,7 +329,7 @@ impl OutputForms {
             }
         }
         let g_min = built.circuit.g_min_s;
-        for nn in 1..built.circuit.n_nodes {
+        for nn in (1..built.circuit.n_nodes).filter(|_| with_loss) {
             let r = t.node_v.row(nn);
             add_outer(r, r, g_min);
         }
@@ -757,7 +764,40 @@ pub fn simulate_from(
     d: &Derived,
     warm: Option<&WarmStart>,
 ) -> Result<SimResult, SolveError> {
-    let first = simulate_with(s, d, false, warm);
+    simulate_outputs(s, d, warm, Outputs::All)
+}
+
+/// Which outputs a simulation computes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Outputs {
+    /// Everything: every signal's samples on the grid (`t_s`), and the
+    /// harmonics of every signal that has them (an analysis).
+    #[default]
+    All,
+    /// What a sweep point's summary reads (`sweep::Summary`): no samples
+    /// (`t_s` and every signal's `samples` empty), no dissipation
+    /// (`p_loss_w` zero: no loss form is evaluated), and harmonics only of
+    /// the line currents and the DC bus, and the fundamental of the EMF
+    /// phase voltages (the FFT takes the harmonic signals two at a time as
+    /// one complex sequence, so a signal's bits depend on its partner: a
+    /// pair is transformed or left out whole, to the larger order of the
+    /// two; every other signal's `harmonics` is empty).  Everything else
+    /// (solution, means, RMS, extremes, the phases' and the load's power,
+    /// events, warnings, warm start) is computed as with `All`, and is the
+    /// same to the bit (`tests/sweep_lean.rs`).  Such a result is for
+    /// `sweep`'s summary only: `results::compute`, `compliance` and the
+    /// field check read the samples, harmonics and losses it leaves out.
+    Summary,
+}
+
+/// [`simulate_from`] computing only `outputs` (see [`Outputs`]).
+pub fn simulate_outputs(
+    s: &Scenario,
+    d: &Derived,
+    warm: Option<&WarmStart>,
+    outputs: Outputs,
+) -> Result<SimResult, SolveError> {
+    let first = simulate_with(s, d, false, warm, outputs);
     if !matches!(s.dc.load, DcLoad::ConstantPower { .. }) {
         return first;
     }
@@ -772,7 +812,7 @@ pub fn simulate_from(
     if !suspect {
         return first;
     }
-    match simulate_with(s, d, true, warm) {
+    match simulate_with(s, d, true, warm, outputs) {
         Ok(mut r) => {
             r.warnings.push(
                 "the constant-power load was solved as a current constant within the period (P / V_avg): the bus ripple is too large for its linearised model".into(),
@@ -1155,6 +1195,7 @@ fn simulate_with(
     d: &Derived,
     cpl_constant_current: bool,
     warm: Option<&WarmStart>,
+    outputs: Outputs,
 ) -> Result<SimResult, SolveError> {
     let cfg = SimConfig::from_scenario(s);
     let period = 1.0 / s.supply.f_hz;
@@ -1244,7 +1285,34 @@ fn simulate_with(
     }
     harm_signals.sort();
     harm_signals.dedup();
+    let lean = outputs == Outputs::Summary;
+    if lean {
+        // Whole pairs of the FFT loop below (signals 2j and 2j + 1; an odd
+        // last one alone), so that each kept pair is transformed as before.
+        let wanted = |i: &usize| r.phase_v.contains(i) || r.line_i.contains(i) || *i == r.v_dc;
+        harm_signals = harm_signals
+            .chunks(2)
+            .filter(|pair| pair.iter().any(wanted))
+            .flatten()
+            .copied()
+            .collect();
+    }
     let h_max = cfg.h_max as usize;
+    // The orders reported per harmonic signal: 1..=h_max, but with
+    // `Outputs::Summary` only the fundamental of the phase voltages and
+    // none of a signal kept only as an FFT partner.
+    let orders: Vec<usize> = harm_signals
+        .iter()
+        .map(|i| {
+            if !lean || r.line_i.contains(i) || *i == r.v_dc {
+                h_max
+            } else if r.phase_v.contains(i) {
+                1
+            } else {
+                0
+            }
+        })
+        .collect();
     let w = 2.0 * PI / period;
     let n_harm = harm_signals.len();
     let mut acc = Accum::new(n_probe, n_harm, h_max, w);
@@ -1283,7 +1351,7 @@ fn simulate_with(
                 return Ok(i);
             }
             let td = eng.topo_key(key)?;
-            forms.push(OutputForms::new(&built, &td));
+            forms.push(OutputForms::new(&built, &td, !lean));
             key_form.insert(key, forms.len() - 1);
             Ok(forms.len() - 1)
         };
@@ -1311,13 +1379,18 @@ fn simulate_with(
     // piece starting there starts (same instant, topology and state), so its
     // values are that piece's start values; others are evaluated on their own
     // (records after the pieces' in `start_vals`; `knot_rec` holds where
-    // each knot's record starts).  Each probe's samples are
-    // then gathered in one pass (pushed a knot at a time into every probe's
-    // vector they cost more).
+    // each knot's record starts).  Each probe's samples are then gathered
+    // in one pass (pushed a knot at a time into every probe's vector they
+    // cost more).  (None with `Outputs::Summary`.)
+    let knots = if lean {
+        &run.knots[..0]
+    } else {
+        &run.knots[..]
+    };
     let rec_len = n_probe + 1;
-    let mut knot_rec = Vec::with_capacity(run.knots.len());
+    let mut knot_rec = Vec::with_capacity(knots.len());
     let mut piece_i = 0;
-    for k in &run.knots {
+    for k in knots {
         while piece_i < n_pieces && run.pieces[piece_i].t_s < k.0 {
             piece_i += 1;
         }
@@ -1487,10 +1560,13 @@ fn simulate_with(
                 let mut j = 0;
                 while j < n_harm {
                     let j2 = (j + 1).min(n_harm - 1);
-                    plan.two_real_into(seq_of(j), seq_of(j2), &mut xa, &mut xb);
+                    // The bins wanted (the FFT computes each the same
+                    // whatever the number, see `fft::pass`).
+                    let top = 1 + orders[j].max(orders[j2]);
+                    plan.two_real_into(seq_of(j), seq_of(j2), &mut xa[..top], &mut xb[..top]);
                     for (jj, x) in [(j, &xa), (j2, &xb)].into_iter().take(j2 + 1 - j) {
                         let four = &mut acc.four[jj * stride..(jj + 1) * stride];
-                        for (h, f) in four.chunks_exact_mut(2).enumerate().skip(1) {
+                        for (h, f) in four.chunks_exact_mut(2).enumerate().take(top).skip(1) {
                             let (xr, xi) = (x[h].0, -x[h].1);
                             if sj == 0 {
                                 f[0] += xr;
@@ -1527,13 +1603,13 @@ fn simulate_with(
         p_loss,
         ..
     } = acc;
-    let grid_t: Vec<f64> = run.knots.iter().map(|k| k.0).collect();
+    let grid_t: Vec<f64> = knots.iter().map(|k| k.0).collect();
     let mut signals = Vec::with_capacity(n_probe);
     for ((i, pr), samples) in built.probes.iter().enumerate().zip(samples) {
         let mean = sum[i] / period;
         let rms = (sum2[i] / period).max(0.0).sqrt();
         let harmonics = match harm_signals.iter().position(|&x| x == i) {
-            Some(j) => (1..=h_max)
+            Some(j) => (1..=orders[j])
                 .map(|h| {
                     // a_h = 2/T int v cos, b_h = 2/T int v sin; v = A cos(h w t + phi)
                     // gives a = A cos phi, b = -A sin phi.
@@ -1614,7 +1690,7 @@ fn simulate_with(
     let warm_ok = !s.bridge.kind.is_controlled()
         && (!cpl || (v_bus.max - v_bus.min) < WARM_CPL_RIPPLE_MAX * v_bus.mean.abs());
     if warm_fits && !warm_ok {
-        return simulate_with(s, d, cpl_constant_current, None);
+        return simulate_with(s, d, cpl_constant_current, None, outputs);
     }
     let transient = if cfg.transient_cycles > 0 {
         Some(power_up(
