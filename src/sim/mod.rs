@@ -382,9 +382,12 @@ fn mul_by_columns(m: &[f64], z: &[f64], out: &mut [f64]) {
 
 /// `m` stored column after column.
 fn by_columns(m: &linalg::Mat) -> Vec<f64> {
-    (0..m.cols)
-        .flat_map(|j| (0..m.rows).map(move |r| m.at(r, j)))
-        .collect()
+    // (Made at its length: collected from a flat map it grew by doubling.)
+    let mut v = Vec::with_capacity(m.rows * m.cols);
+    for j in 0..m.cols {
+        v.extend((0..m.rows).map(|r| m.at(r, j)));
+    }
+    v
 }
 
 /// A matrix `m` (rows by the entries of `z`) stored for `out = m z` as
@@ -1154,6 +1157,39 @@ impl Accum {
     }
 }
 
+/// A whole step's terms of the Fourier sequences (see `simulate_with`):
+/// per harmonic signal, its knot sequence at `k` and `k1` takes the end
+/// weight `w[0]` times the values at the step's start `v[0]` and end
+/// `v[2]`, and its midpoint sequence at `k` the weight `w[1]` times the
+/// middle values `v[1]`.  A knot entry not written before (`NEW0`,
+/// `NEW1`) starts from zero: `0 + x`, the sum from a zeroed buffer.
+#[inline(always)]
+fn put_step<'a, const NEW0: bool, const NEW1: bool>(
+    runs: impl Iterator<Item = (&'a mut [f64], &'a mut [f64])>,
+    harm_signals: &[usize],
+    k: usize,
+    k1: usize,
+    w: [f64; 2],
+    v: [&[f64]; 3],
+) {
+    // (Cut to one length, so that one bounds check serves all three.)
+    let n = v[0].len().min(v[1].len()).min(v[2].len());
+    let (v0, v1, v2) = (&v[0][..n], &v[1][..n], &v[2][..n]);
+    for ((kn, md), &si) in runs.zip(harm_signals) {
+        let a = if NEW0 { 0.0 } else { kn[k] };
+        kn[k] = a + w[0] * v0[si];
+        let b = if NEW1 { 0.0 } else { kn[k1] };
+        kn[k1] = b + w[0] * v2[si];
+        md[k] = w[1] * v1[si];
+    }
+}
+
+thread_local! {
+    /// `simulate_with`'s buffer of Fourier sequences, kept between the
+    /// analyses of a thread (a sweep's points), its numbers stale.
+    static SEQ: std::cell::RefCell<Vec<f64>> = const { std::cell::RefCell::new(Vec::new()) };
+}
+
 fn simulate_with(
     s: &Scenario,
     d: &Derived,
@@ -1293,7 +1329,18 @@ fn simulate_with(
     let h_step = period / n_grid as f64;
     // seq[(s n_harm + j) n_grid + k]: weighted values of harmonic signal j
     // at t_k (s = 0) or at t_k + h/2 (s = 1).
-    let mut seq = vec![0.0; if use_fft { 2 * n_harm * n_grid } else { 0 }];
+    // The buffer is this thread's, kept from its last analysis (`SEQ`,
+    // its numbers stale): each entry is set where it is first written (a
+    // knot's `0 + x`, then `+ y`, as from zero), and the entries no whole
+    // step writes are zeroed before the transforms (`written`).  Made
+    // anew, the allocator zeroed all of it (138 kB on the drive front end)
+    // whenever it reused memory, up to 1.2 % of an analysis.
+    let mut seq = SEQ
+        .with(|c| c.try_borrow_mut().ok().map(|mut v| std::mem::take(&mut *v)))
+        .unwrap_or_default();
+    seq.resize(if use_fft { 2 * n_harm * n_grid } else { 0 }, 0.0);
+    // Per grid point: bit 0 its knot's entries written, bit 1 its midpoint's.
+    let mut written = vec![0u8; if use_fft { n_grid } else { 0 }];
     // Per topology met: every probe and the dissipation as forms over z
     // (see `OutputForms`), found by key.
     let mut forms: Vec<OutputForms> = Vec::new();
@@ -1328,36 +1375,43 @@ fn simulate_with(
         start_vals.extend_from_slice(&vals[..n_probe]);
         start_vals.push(q);
     }
-    let start_of = |i: usize| &start_vals[i * (n_probe + 1)..][..n_probe];
-    let start_q = |i: usize| start_vals[i * (n_probe + 1) + n_probe];
     // Samples on the grid: every probe at every knot.  A knot is where the
     // piece starting there starts (same instant, topology and state), so its
-    // values are that piece's start values; others are evaluated on their own.
-    // (None with `Outputs::Summary`.)
+    // values are that piece's start values; others are evaluated on their own
+    // (records after the pieces' in `start_vals`; `knot_rec` holds where
+    // each knot's record starts).  Each probe's samples are then gathered
+    // in one pass (pushed a knot at a time into every probe's vector they
+    // cost more).  (None with `Outputs::Summary`.)
     let knots = if lean {
         &run.knots[..0]
     } else {
         &run.knots[..]
     };
-    let mut samples: Vec<Vec<f64>> = vec![Vec::with_capacity(knots.len()); n_probe];
-    let mut knot_vals = vec![0.0; rows];
+    let rec_len = n_probe + 1;
+    let mut knot_rec = Vec::with_capacity(knots.len());
     let mut piece_i = 0;
     for k in knots {
         while piece_i < n_pieces && run.pieces[piece_i].t_s < k.0 {
             piece_i += 1;
         }
-        let v: &[f64] = match run.pieces.get(piece_i) {
-            Some(p) if p.t_s == k.0 && p.key == k.1 && p.z == k.2 => start_of(piece_i),
+        match run.pieces.get(piece_i) {
+            Some(p) if p.t_s == k.0 && p.key == k.1 && p.z == k.2 => {
+                knot_rec.push(piece_i * rec_len)
+            }
             _ => {
                 let fi = form_of(k.1, &mut eng, &mut forms)?;
-                forms[fi].eval(&k.2, &mut knot_vals);
-                &knot_vals[..n_probe]
+                let q = forms[fi].eval(&k.2, &mut vals);
+                knot_rec.push(start_vals.len());
+                start_vals.extend_from_slice(&vals[..n_probe]);
+                start_vals.push(q);
             }
-        };
-        for (smp, x) in samples.iter_mut().zip(v) {
-            smp.push(*x);
         }
     }
+    let samples: Vec<Vec<f64>> = (0..n_probe)
+        .map(|j| knot_rec.iter().map(|&at| start_vals[at + j]).collect())
+        .collect();
+    let start_of = |i: usize| &start_vals[i * rec_len..][..n_probe];
+    let start_q = |i: usize| start_vals[i * rec_len + n_probe];
     // Min and max leave out the stiff transients after switchings, with
     // the settled right-hand limits in their place (see `settling_windows`).
     let (mut windows, settled) =
@@ -1450,10 +1504,19 @@ fn simulate_with(
             let runs = knots
                 .chunks_exact_mut(n_grid)
                 .zip(mids.chunks_exact_mut(n_grid));
-            for ((kn, md), &si) in runs.zip(&harm_signals) {
-                kn[k] += w_end * v_start[si];
-                kn[k1] += w_end * v_end[si];
-                md[k] = w_mid * v_mid[si];
+            // An entry not yet written starts from zero (in time order
+            // the step's start knot is written, its end knot not).
+            let put = (written[k] & 1 == 0, written[k1] & 1 == 0);
+            written[k] |= 3;
+            written[k1] |= 1;
+            let w = [w_end, w_mid];
+            let v = [v_start, v_mid, v_end];
+            let hs = &harm_signals;
+            match put {
+                (false, true) => put_step::<false, true>(runs, hs, k, k1, w, v),
+                (false, false) => put_step::<false, false>(runs, hs, k, k1, w, v),
+                (true, true) => put_step::<true, true>(runs, hs, k, k1, w, v),
+                (true, false) => put_step::<true, false>(runs, hs, k, k1, w, v),
             }
         } else {
             let nodes = [
@@ -1465,6 +1528,20 @@ fn simulate_with(
         }
     }
     if use_fft {
+        // Entries no whole step wrote are zero.
+        let (knots, mids) = seq.split_at_mut(n_harm * n_grid);
+        for (k, w) in written.iter().enumerate() {
+            if w & 1 == 0 {
+                for kn in knots.chunks_exact_mut(n_grid) {
+                    kn[k] = 0.0;
+                }
+            }
+            if w & 2 == 0 {
+                for md in mids.chunks_exact_mut(n_grid) {
+                    md[k] = 0.0;
+                }
+            }
+        }
         // sum v e^{+i h w t} over a sequence offset by `offset` from the
         // knots is e^{i h w offset} conj(X[h]).
         let rot: Vec<(f64, f64)> = (0..=h_max)
@@ -1503,6 +1580,14 @@ fn simulate_with(
                     }
                     j += 2;
                 }
+            }
+        });
+    }
+    // Kept for the next analysis on this thread, up to 4 MB.
+    if seq.capacity() <= 1 << 19 {
+        SEQ.with(|c| {
+            if let Ok(mut v) = c.try_borrow_mut() {
+                *v = seq;
             }
         });
     }
