@@ -100,6 +100,25 @@ fn fail(reason: &str, hint: &str) -> SolveError {
 /// A stiff topology (a leakage path through an inductor) only starts a few
 /// levels finer.  Checked against `expm` at every level in the tests below.
 pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
+    let n = f.rows;
+    let mut table: Vec<Mat> = Vec::with_capacity(TABLE_LEVELS + 1);
+    dyadic_levels(f, h_s, |_, d| {
+        let mut e = d.clone();
+        for k in 0..n {
+            e.data[k * n + k] += 1.0;
+        }
+        table.push(e);
+    })?;
+    // Built finest first; the table is indexed coarsest first.
+    table.reverse();
+    Some(table)
+}
+
+/// The levels of `dyadic_table` in the "minus identity" form `D_i = E_i -
+/// I`, finest first: `visit(i, D_i)` for i = TABLE_LEVELS down to 0 (so
+/// that a caller keeps what it needs of each without a copy per level);
+/// `None` when they are not finite.
+pub fn dyadic_levels(f: &Mat, h_s: f64, mut visit: impl FnMut(usize, &Mat)) -> Option<()> {
     const TAYLOR_THETA: f64 = 1e-3;
     let n = f.rows;
     if f.data.iter().any(|x| !x.is_finite()) {
@@ -134,20 +153,12 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
     }
     a.mul_into_ranges(&d, &mut tmp, &ranges_i);
     std::mem::swap(&mut d, &mut tmp);
-    let mut table: Vec<Mat> = Vec::with_capacity(TABLE_LEVELS + 1);
     let mut level = finest_level;
     // (A level that is not finite leaves every coarser one not finite in
     // the same entry, `2 D + D^2` keeping its `2 D` term: only the last is
     // checked.)
-    let push = |d: &Mat, table: &mut Vec<Mat>| {
-        let mut e = d.clone();
-        for k in 0..n {
-            e.data[k * n + k] += 1.0;
-        }
-        table.push(e);
-    };
     if level == TABLE_LEVELS {
-        push(&d, &mut table);
+        visit(level, &d);
     }
     while level > 0 {
         d.mul_into_ranges(&d, &mut tmp, &ranges);
@@ -157,15 +168,14 @@ pub fn dyadic_table(f: &Mat, h_s: f64) -> Option<Vec<Mat>> {
         std::mem::swap(&mut d, &mut tmp);
         level -= 1;
         if level <= TABLE_LEVELS {
-            push(&d, &mut table);
+            visit(level, &d);
         }
     }
-    if !table.last()?.data.iter().all(|x| x.is_finite()) {
+    // (`E_0 = D_0 + I` is finite where `D_0` is.)
+    if !d.data.iter().all(|x| x.is_finite()) {
         return None;
     }
-    // Built finest first; the table is indexed coarsest first.
-    table.reverse();
-    Some(table)
+    Some(())
 }
 
 /// Columns `lo .. hi` of a row (see `nonzero_ranges`).
@@ -228,18 +238,21 @@ pub struct TopoData {
     pub key: u64,
     /// `expm(F h)` for the grid step.
     pub step: Mat,
-    /// `table[i] = expm(F h / 2^i)`, i = 0..=TABLE_LEVELS.  Any time in a step,
-    /// rounded to the finest level, is a product of these (they commute), so
-    /// the state anywhere costs at most one matrix-vector product per level,
-    /// and bisection for a switching instant costs one per level.
+    /// `table[i] = expm(F h / 2^i)` for i = 0, 1 (the step and the half
+    /// step, which the output stage reads as matrices).  Every level (the
+    /// table to i = TABLE_LEVELS, and the coarse strides) is in `packed`:
+    /// any time in a step, rounded to the finest level, is a product of
+    /// these (they commute), so the state anywhere costs at most one
+    /// matrix-vector product per level, and bisection for a switching
+    /// instant costs one per level.
     pub table: Vec<Mat>,
     /// Condition row of each switch in this topology (current if on, voltage
     /// minus threshold if off).
     pub cond: Vec<Vec<f64>>,
-    /// `up[c] = expm(F h 2^c)`, c = 0..=COARSE_LEVELS (squarings of the step).
-    pub up: Vec<Mat>,
-    /// Every level (tick bit `b` = 0 ..= TABLE_LEVELS + COARSE_LEVELS) packed
-    /// for `apply_level`: the rows of the physical states by columns, then
+    /// Every level (tick bit `b` = 0 ..= TABLE_LEVELS + COARSE_LEVELS:
+    /// `expm(F h 2^(b - TABLE_LEVELS))`, the table's level `TABLE_LEVELS -
+    /// b` up to the step, then the step squared `b - TABLE_LEVELS` times)
+    /// packed for `apply_level`: the rows of the physical states by columns, then
     /// each oscillator pair's 2 x 2 block (row-major).  The rest of a level
     /// is structural: an oscillator row is zero outside its pair (its
     /// state-matrix rows are the rotation alone) and the parameter and
@@ -812,21 +825,35 @@ impl Engine {
         })?;
         self.n_topologies_built += 1;
         let bad = || fail("state matrix is not finite", "check the element values");
-        let table = dyadic_table(&topo.f, self.h_s).ok_or_else(bad)?;
+        let (nx, n_osc) = (self.circuit.n_x(), self.circuit.osc_omega.len());
+        let mut packed =
+            Vec::with_capacity(packed_len(nx, n_osc) * (TABLE_LEVELS + COARSE_LEVELS + 1));
+        // Each table level `E_i = D_i + I` (the same sums as `dyadic_table`)
+        // in one scratch matrix, packed as it comes (finest first: tick bit
+        // `b = TABLE_LEVELS - i`); levels 1 and 0 kept as matrices.
+        let n = topo.f.rows;
+        let mut e = Mat::zeros(n, n);
+        let mut table: Vec<Mat> = Vec::with_capacity(2);
+        dyadic_levels(&topo.f, self.h_s, |i, d| {
+            e.data.copy_from_slice(&d.data);
+            for k in 0..n {
+                e.data[k * n + k] += 1.0;
+            }
+            pack_level(&e, nx, n_osc, &mut packed);
+            if i <= 1 {
+                table.insert(0, e.clone());
+            }
+        })
+        .ok_or_else(bad)?;
         let step = table[0].clone();
         let cond = (0..on.len())
             .map(|k| self.cond_row(&topo, k, on[k]))
             .collect();
-        let mut up = vec![step.clone()];
-        for c in 0..COARSE_LEVELS {
-            let m = up[c].mul(&up[c]);
-            up.push(m);
-        }
-        let (nx, n_osc) = (self.circuit.n_x(), self.circuit.osc_omega.len());
-        let mut packed =
-            Vec::with_capacity(packed_len(nx, n_osc) * (TABLE_LEVELS + COARSE_LEVELS + 1));
-        for b in 0..=TABLE_LEVELS + COARSE_LEVELS {
-            pack_level(level_of(&table, &up, b), nx, n_osc, &mut packed);
+        // The coarse strides: the step squared (tick bits TABLE_LEVELS + 1 ..).
+        let mut up = step.clone();
+        for _ in 0..COARSE_LEVELS {
+            up = up.mul(&up);
+            pack_level(&up, nx, n_osc, &mut packed);
         }
         let d = Arc::new(TopoData {
             topo,
@@ -834,7 +861,6 @@ impl Engine {
             step,
             table,
             cond,
-            up,
             packed,
             nx,
             n_osc,
@@ -882,11 +908,6 @@ impl Engine {
         round_ticks((tau / self.h_s) * full as f64, top)
     }
 
-    /// The matrix of tick bit `b`: `expm(F h 2^(b - TABLE_LEVELS))`.
-    fn level(td: &TopoData, b: usize) -> &Mat {
-        level_of(&td.table, &td.up, b)
-    }
-
     /// Time of `m` finest-level ticks.
     fn tick_time(&self, m: u64) -> f64 {
         self.h_s * m as f64 / (1u64 << TABLE_LEVELS) as f64
@@ -910,8 +931,8 @@ impl Engine {
         }
     }
 
-    /// `out = L_b z` for the level of tick bit `b` (`Self::level(td, b)`
-    /// times `z`, by the packed structure).
+    /// `out = L_b z` for the level of tick bit `b` (`expm(F h 2^(b -
+    /// TABLE_LEVELS))` times `z`, by the packed structure).
     #[inline(always)]
     fn apply(td: &TopoData, b: usize, z: &[f64], out: &mut [f64]) {
         let len = td.packed_len();
@@ -1697,16 +1718,6 @@ impl Engine {
     }
 }
 
-/// The matrix of tick bit `b` from a topology's table and coarse strides:
-/// `expm(F h 2^(b - TABLE_LEVELS))`.
-fn level_of<'a>(table: &'a [Mat], up: &'a [Mat], b: usize) -> &'a Mat {
-    if b >= TABLE_LEVELS {
-        &up[b - TABLE_LEVELS]
-    } else {
-        &table[TABLE_LEVELS - b]
-    }
-}
-
 /// The set bits of `m`, highest first.
 fn set_bits_down(mut m: u64) -> impl Iterator<Item = usize> {
     std::iter::from_fn(move || {
@@ -1841,7 +1852,9 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f6
             let pos = match at_level.iter().position(|(lb, _)| *lb == b) {
                 Some(k) => k,
                 None => {
-                    at_level.push((b, row_times(row, Engine::level(td, b))));
+                    let len = td.packed_len();
+                    let lv = &td.packed[b * len..(b + 1) * len];
+                    at_level.push((b, row_times(row, lv, td.nx, td.n_osc)));
                     at_level.len() - 1
                 }
             };
@@ -1877,18 +1890,71 @@ fn run_mean(eng: &mut Engine, run: &RunOut, rule: &ParamRule) -> Result<(f64, f6
 /// A signal's row times the table level `.0` (see `run_mean`).
 type LevelRow = (usize, Vec<f64>);
 
-/// The row vector `r M`.
-fn row_times(r: &[f64], m: &Mat) -> Vec<f64> {
-    let mut out = vec![0.0; m.cols];
-    for (i, ri) in r.iter().enumerate().take(m.rows) {
+/// The row vector `r L` for a packed level `lv` (see `TopoData::packed`): each
+/// entry the sum of `r_i L_ij` over `i` ascending, from +0, the rows with
+/// `r_i = 0` skipped, as the plain product over the full matrix.  Read from
+/// the packed level: of the oscillator, parameter and constant rows only
+/// the entries the packing keeps (their pair, their diagonal) are added;
+/// the rest are exact zeros, whose terms (signed zeros when `r` is finite)
+/// leave such a sum unchanged.  A row `r` that is not finite takes the full
+/// matrix, unpacked.
+fn row_times(r: &[f64], lv: &[f64], nx: usize, n_osc: usize) -> Vec<f64> {
+    let nz = nx + 2 * n_osc + 2;
+    let (xb, osc) = lv.split_at(nx * nz);
+    let mut out = vec![0.0; nz];
+    if !r.iter().all(|x| x.is_finite()) {
+        let m = unpack_level(lv, nx, n_osc);
+        for (i, ri) in r.iter().enumerate().take(m.rows) {
+            if *ri == 0.0 {
+                continue;
+            }
+            for (o, x) in out.iter_mut().zip(m.row(i)) {
+                *o += ri * x;
+            }
+        }
+        return out;
+    }
+    for (i, ri) in r.iter().enumerate().take(nz) {
         if *ri == 0.0 {
             continue;
         }
-        for (o, x) in out.iter_mut().zip(m.row(i)) {
-            *o += ri * x;
+        if i < nx {
+            for (o, col) in out.iter_mut().zip(xb.chunks_exact(nx)) {
+                *o += ri * col[i];
+            }
+        } else if i < nz - 2 {
+            let (q, h) = ((i - nx) / 2, (i - nx) % 2);
+            let c = nx + 2 * q;
+            out[c] += ri * osc[4 * q + 2 * h];
+            out[c + 1] += ri * osc[4 * q + 2 * h + 1];
+        } else {
+            out[i] += ri * 1.0;
         }
     }
     out
+}
+
+/// The full matrix of a packed level (see `TopoData::packed`): the
+/// structural entries exact zeros (+0) and ones.
+fn unpack_level(lv: &[f64], nx: usize, n_osc: usize) -> Mat {
+    let nz = nx + 2 * n_osc + 2;
+    let mut m = Mat::zeros(nz, nz);
+    for (j, col) in lv[..nx * nz].chunks_exact(nx).enumerate() {
+        for (i, &v) in col.iter().enumerate() {
+            m.set(i, j, v);
+        }
+    }
+    for q in 0..n_osc {
+        let c = nx + 2 * q;
+        let blk = &lv[nx * nz + 4 * q..nx * nz + 4 * q + 4];
+        m.set(c, c, blk[0]);
+        m.set(c, c + 1, blk[1]);
+        m.set(c + 1, c, blk[2]);
+        m.set(c + 1, c + 1, blk[3]);
+    }
+    m.set(nz - 2, nz - 2, 1.0);
+    m.set(nz - 1, nz - 1, 1.0);
+    m
 }
 
 /// Newton shooting from a given initial state and switch states.
@@ -2122,6 +2188,61 @@ mod tests {
     /// diagonal entry must be `exp(-rate tau)`.  (Direct Padé itself drifts by
     /// 2e-8 in the slow entries at rate 1e14, which is why it is not the
     /// oracle there.)
+    /// `row_times` from the packed levels against the plain row-vector
+    /// product with the full level matrices (every term, from +0), bit for
+    /// bit, and the same not-a-number pattern for a row that is not finite.
+    #[test]
+    fn row_times_is_the_plain_product() {
+        // `circuit_like` with a parameter entry (5, a load current drawn
+        // from the capacitor x1) before the constant (6).
+        let c = circuit_like(1e3);
+        let mut f = Mat::zeros(7, 7);
+        for i in 0..5 {
+            for j in 0..5 {
+                f.set(i, j, c.at(i, j));
+            }
+            f.set(i, 6, c.at(i, 5));
+        }
+        f.set(1, 5, -7.0e3);
+        let h = 1.0 / 60.0 / 1024.0;
+        let table = dyadic_table(&f, h).expect("finite");
+        let (nx, n_osc) = (3, 1);
+        let mut packed = Vec::new();
+        for b in 0..=TABLE_LEVELS {
+            pack_level(&table[TABLE_LEVELS - b], nx, n_osc, &mut packed);
+        }
+        let len = packed_len(nx, n_osc);
+        let plain = |r: &[f64], m: &Mat| -> Vec<f64> {
+            (0..m.cols)
+                .map(|j| (0..m.rows).fold(0.0, |acc, i| acc + r[i] * m.at(i, j)))
+                .collect()
+        };
+        let rows = [
+            vec![0.3, -1.0, 0.0, 2.5, -0.7, 1e-3, 4.0],
+            vec![0.0, 1.0, 0.0, 0.0, 0.0, 0.0, -12.0],
+            vec![1.0, 0.0, -0.0, 0.0, 1.0, 1.0, 0.0],
+            vec![-2.0e-9, 3.0e5, 1.0, -1.0, 1.0e-300, 0.0, 0.0],
+        ];
+        for b in 0..=TABLE_LEVELS {
+            let lv = &packed[b * len..(b + 1) * len];
+            let m = &table[TABLE_LEVELS - b];
+            for r in &rows {
+                let got = row_times(r, lv, nx, n_osc);
+                let want = plain(r, m);
+                for (g, w) in got.iter().zip(&want) {
+                    assert_eq!(g.to_bits(), w.to_bits(), "level {b}, row {r:?}");
+                }
+            }
+            let r = [0.5, f64::INFINITY, 0.0, 1.0, 0.0, 0.0, 1.0];
+            let got = row_times(&r, lv, nx, n_osc);
+            let want = plain(&r, m);
+            for (g, w) in got.iter().zip(&want) {
+                assert_eq!(g.is_nan(), w.is_nan(), "level {b}");
+                assert!(g.is_nan() || g == w, "level {b}");
+            }
+        }
+    }
+
     #[test]
     fn dyadic_table_matches_oracles() {
         let h = 1.0 / 60.0 / 1024.0;
