@@ -26,7 +26,7 @@
 
 mod common;
 use common::rng::{random_scenario, Rng};
-use rectifield::analysis::{analyze, analyze_from};
+use rectifield::analysis::{analyze, analyze_from, Analysis};
 use rectifield::scenario::{from_json, DcLoad, Scenario};
 use rectifield::sim::WarmStart;
 use rectifield::sweep::{point, summarize, with_value, SweepPoint, Sweeper, SUMMARY_FIELDS};
@@ -61,32 +61,41 @@ impl FullSweeper {
         };
         let analysed = with_value(&self.base, &self.path, x)
             .and_then(|sc| analyze_from(&sc, warm.as_ref()).map_err(|e| e.to_string()));
-        match analysed {
-            Ok(a) => {
-                match a.sim.as_ref().and_then(|r| r.warm_start.clone()) {
-                    Some(w) => {
-                        if self.solved.len() == 2 {
-                            self.solved.remove(0);
-                        }
-                        self.solved.push((x, w));
+        if let Ok(a) = &analysed {
+            match a.sim.as_ref().and_then(|r| r.warm_start.clone()) {
+                Some(w) => {
+                    if self.solved.len() == 2 {
+                        self.solved.remove(0);
                     }
-                    None if a.sim.is_some() => self.solved.clear(),
-                    None => {}
+                    self.solved.push((x, w));
                 }
-                let summary = summarize(&a);
-                let error = if summary.is_none() {
-                    a.warnings.first().cloned()
-                } else {
-                    None
-                };
-                SweepPoint { x, summary, error }
+                None if a.sim.is_some() => self.solved.clear(),
+                None => {}
             }
-            Err(e) => SweepPoint {
-                x,
-                summary: None,
-                error: Some(e),
-            },
         }
+        point_of(x, analysed)
+    }
+}
+
+/// The sweep point of `x` from its full analysis (or the error), as the
+/// sweep made it before the lean path: `summarize`, and the first warning
+/// as the error of a point without a summary.
+fn point_of(x: f64, analysed: Result<Analysis, String>) -> SweepPoint {
+    match analysed {
+        Ok(a) => {
+            let summary = summarize(&a);
+            let error = if summary.is_none() {
+                a.warnings.first().cloned()
+            } else {
+                None
+            };
+            SweepPoint { x, summary, error }
+        }
+        Err(e) => SweepPoint {
+            x,
+            summary: None,
+            error: Some(e),
+        },
     }
 }
 
@@ -124,23 +133,10 @@ fn cold_point_matches_analysis(s: &Scenario, path: &str, x: f64) -> Result<(), S
     let mut base = s.clone();
     base.analysis.transient_cycles = 0;
     base.compliance.search_fixes = false;
-    let want =
-        match with_value(&base, path, x).and_then(|sc| analyze(&sc).map_err(|e| e.to_string())) {
-            Ok(a) => {
-                let summary = summarize(&a);
-                let error = if summary.is_none() {
-                    a.warnings.first().cloned()
-                } else {
-                    None
-                };
-                SweepPoint { x, summary, error }
-            }
-            Err(e) => SweepPoint {
-                x,
-                summary: None,
-                error: Some(e),
-            },
-        };
+    let want = point_of(
+        x,
+        with_value(&base, path, x).and_then(|sc| analyze(&sc).map_err(|e| e.to_string())),
+    );
     same(&point(s, path, x), &want)
 }
 
