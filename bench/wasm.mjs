@@ -47,11 +47,21 @@ const browser = await puppeteer.launch({
   args: [
     "--no-sandbox",
     "--disable-gpu",
+    "--disable-quic",
     "--no-first-run",
     "--disable-background-networking",
     "--disable-component-update",
     "--disable-sync",
     "--enable-precise-memory-info",
+    // Headless Chromium 156 preloads the address bar's pop-up (a browser page
+    // of its own, "top-chrome WebUI") in a renderer per browser context, and
+    // that renderer burns about a second of CPU as the context opens: on a
+    // two-core machine it ran beside every fresh-context page load of the
+    // first-result runs (measured 2026-12-03 with a trace: two such
+    // renderers at 100 % of a core each through the whole load). It is the
+    // browser's own window furniture, which a headless page never shows, not
+    // our page's cost, so it is switched off.
+    "--disable-features=PreloadTopChromeWebUI,WebUIOmniboxPopup,WebUIOmniboxFullPopup,WebUIOmniboxAimPopup",
   ],
 });
 const out = { chromium: await browser.version(), index: INDEX };

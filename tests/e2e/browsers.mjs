@@ -26,6 +26,9 @@ export const BROWSERS = [
           "--disable-background-networking",
           "--disable-component-update",
           "--disable-sync",
+          // the address bar pop-up's renderer, preloaded per browser context
+          // (about a second of CPU each; bench/wasm.mjs says more)
+          "--disable-features=PreloadTopChromeWebUI,WebUIOmniboxPopup,WebUIOmniboxFullPopup,WebUIOmniboxAimPopup",
         ],
       }),
   },
