@@ -1341,6 +1341,284 @@
     }
   }
 
+  // ---- the sweep's points, computed off the page's thread
+  //
+  // A sweep is split into contiguous runs of points, one per Web Worker, each
+  // worker with its own instance of the engine (the compiled module is shared,
+  // so a worker starts in a few milliseconds and runs the code the page has
+  // already warmed).  Within a run each point starts from the previous one, as
+  // in one long run; a run's first point starts cold, as a single analysis
+  // does, so the figures agree with the one-run sweep within the solver's
+  // tolerances (DEVELOPERS.md, "Warm starts").  A worker is made from a
+  // blob: URL holding the wasm-bindgen glue (the text of its inline script)
+  // and sweepWorkerMain; where that cannot be done (a browser without
+  // workers, the page's scripts not inline) the sweep runs on the page's
+  // thread, as before.
+  let engineModule = null; // the compiled engine (WebAssembly.Module), set at start
+  const pool = { workers: [], broken: false, starting: null };
+  const MAX_WORKERS = 4;
+
+  // The worker's own code: its text is put in the worker after the glue.
+  function sweepWorkerMain() {
+    let ready = null;
+    self.onmessage = async (ev) => {
+      const m = ev.data;
+      if (m.type === "init") {
+        ready = wasm_bindgen({ module_or_path: m.module });
+        try {
+          await ready;
+          try {
+            wasm_bindgen.install_panic_hook();
+          } catch (_) {
+            /* an engine without the hook */
+          }
+          self.postMessage({ type: "ready" });
+        } catch (err) {
+          self.postMessage({ type: "failed", error: String(err) });
+        }
+        return;
+      }
+      if (m.type !== "run") return;
+      await ready;
+      const t0 = performance.now();
+      let run = null;
+      try {
+        run = new wasm_bindgen.SweepRun(m.json, m.path);
+      } catch (_) {
+        run = null; // each point below then reports the error
+      }
+      let trapped = false;
+      // points go back in batches, about every 30 ms (a message per point
+      // kept the page's thread busy for a few per cent of the sweep)
+      let batch = [];
+      let sent = t0;
+      for (let k = 0; k < m.xs.length; k++) {
+        let p;
+        try {
+          p = run ? run.point(m.xs[k]) : wasm_bindgen.sweep_point(m.json, m.path, m.xs[k]);
+        } catch (err) {
+          // a string is the engine's error; anything else (a trap) leaves the
+          // instance unusable, so the page retires this worker afterwards
+          if (typeof err !== "string") trapped = true;
+          p = { x: m.xs[k], summary: null, error: String(err) };
+        }
+        batch.push(p);
+        const now = performance.now();
+        if (now - sent > 30 || k === m.xs.length - 1) {
+          self.postMessage({ type: "points", id: m.id, i: m.start + k + 1 - batch.length, ps: batch });
+          batch = [];
+          sent = now;
+        }
+      }
+      try {
+        if (run) run.free();
+      } catch (_) {
+        trapped = true;
+      }
+      self.postMessage({ type: "done", id: m.id, trapped, ms: performance.now() - t0 });
+    };
+  }
+
+  function glueText() {
+    for (const sc of document.scripts) {
+      const t = sc.text;
+      if (t && t.startsWith("/* rectifield_glue.js */")) return t;
+    }
+    return null;
+  }
+
+  function newWorker(url) {
+    return new Promise((resolve) => {
+      let w;
+      try {
+        w = new Worker(url);
+      } catch (_) {
+        resolve(null);
+        return;
+      }
+      const fail = () => {
+        w.terminate();
+        resolve(null);
+      };
+      const limit = setTimeout(fail, 10000);
+      w.onerror = () => {
+        clearTimeout(limit);
+        fail();
+      };
+      w.onmessage = (ev) => {
+        clearTimeout(limit);
+        w.onerror = null;
+        w.onmessage = null;
+        if (ev.data && ev.data.type === "ready") resolve(w);
+        else fail();
+      };
+      w.postMessage({ type: "init", module: engineModule });
+    });
+  }
+
+  // Workers for the next sweep (made once, kept; a cancel retires them).
+  // Resolves to an empty list where workers cannot be had.
+  function workers() {
+    if (pool.broken) return Promise.resolve([]);
+    if (pool.workers.length) return Promise.resolve(pool.workers);
+    if (pool.starting) return pool.starting;
+    pool.starting = (async () => {
+      const glue = glueText();
+      if (!glue || !engineModule || typeof Worker !== "function" || typeof URL.createObjectURL !== "function") {
+        pool.broken = true;
+        return [];
+      }
+      const url = URL.createObjectURL(new Blob([glue, "\n;(", sweepWorkerMain.toString(), ")();\n"], { type: "text/javascript" }));
+      const n = Math.max(1, Math.min(MAX_WORKERS, navigator.hardwareConcurrency || 2));
+      const made = (await Promise.all(Array.from({ length: n }, () => newWorker(url)))).filter(Boolean);
+      URL.revokeObjectURL(url);
+      if (!made.length) pool.broken = true;
+      pool.workers = made;
+      return made;
+    })();
+    return pool.starting.finally(() => {
+      pool.starting = null;
+    });
+  }
+
+  function retireWorkers() {
+    for (const w of pool.workers) w.terminate();
+    pool.workers = [];
+  }
+
+  let sweepId = 0;
+
+  // The points of one sweep: `json` the scenario, `path` the field, `xs` its
+  // values.  `onPoint(i, p)` gets each point as it comes (in any order);
+  // `cancelled()` is asked between points.  Resolves to {points (by index, a
+  // hole where a cancel left one), workers (0: the page's thread)}.
+  async function sweepPoints(json, path, xs, onPoint, cancelled) {
+    const points = new Array(xs.length);
+    const ws = (await workers()).slice(0, Math.max(1, Math.floor(xs.length / 8)));
+    if (!ws.length) {
+      // On the page's thread: one run, giving the page a frame (progress,
+      // Cancel) about every 40 ms of work, not after every point (a timer
+      // yield costs about 4 ms in every browser).
+      let run = null;
+      try {
+        run = new wasm_bindgen.SweepRun(json, path);
+      } catch (err) {
+        run = null; // each point below then reports the error
+      }
+      let slice = performance.now();
+      for (let i = 0; i < xs.length && !cancelled(); i++) {
+        let p;
+        try {
+          p = run ? run.point(xs[i]) : wasm_bindgen.sweep_point(json, path, xs[i]);
+        } catch (err) {
+          p = { x: xs[i], summary: null, error: String(err) };
+        }
+        points[i] = p;
+        onPoint(i, p);
+        if (performance.now() - slice > 40) {
+          await new Promise((r) => setTimeout(r, 0));
+          slice = performance.now();
+        }
+      }
+      if (run) run.free();
+      return { points, workers: 0 };
+    }
+    const id = ++sweepId;
+    // Runs of points, handed to whichever worker is free: the cost of a
+    // point varies along a sweep (a light load takes more periods), so equal
+    // shares per worker left one idle while the other finished.  Three runs
+    // per worker: each run's first point is a cold start, about twice a warm
+    // point.
+    const nRuns = Math.min(xs.length, ws.length * 3);
+    const per = Math.ceil(xs.length / nRuns);
+    const runs = [];
+    for (let lo = 0; lo < xs.length; lo += per) runs.push([lo, Math.min(xs.length, lo + per)]);
+    return new Promise((resolve) => {
+      let next = 0;
+      let busy = 0;
+      let over = false;
+      let retire = false;
+      const dead = new Set();
+      let workMs = 0; // the workers' time in their runs, summed
+      const finish = () => {
+        if (over) return;
+        over = true;
+        clearInterval(watch);
+        for (const w of ws) {
+          w.onmessage = null;
+          w.onerror = null;
+        }
+        if (retire || dead.size) retireWorkers();
+        resolve({ points, workers: ws.length, work_ms: workMs });
+      };
+      // A worker that trapped or stopped gets no more work; runs no worker
+      // is left for are reported as failed points.
+      const settle = () => {
+        if (busy > 0) return;
+        if (!cancelled()) {
+          for (let i = 0; i < xs.length; i++) {
+            if (!points[i]) {
+              points[i] = { x: xs[i], summary: null, error: "the engine stopped before this point" };
+              onPoint(i, points[i]);
+            }
+          }
+        }
+        finish();
+      };
+      // A cancel retires the workers at once (a worker cannot be asked
+      // between its points); the next sweep makes new ones.
+      const watch = setInterval(() => {
+        if (!cancelled()) return;
+        retire = true;
+        finish();
+      }, 50);
+      const give = (w) => {
+        if (over) return;
+        if (dead.has(w) || next >= runs.length || cancelled()) {
+          settle();
+          return;
+        }
+        const [lo, hi] = runs[next++];
+        busy += 1;
+        w.onmessage = (ev) => {
+          const m = ev.data;
+          if (!m || m.id !== id || over) return;
+          if (m.type === "points") {
+            m.ps.forEach((p, k) => {
+              points[m.i + k] = p;
+              onPoint(m.i + k, p);
+            });
+          } else if (m.type === "done") {
+            busy -= 1;
+            workMs += m.ms || 0;
+            // a trap leaves an instance unusable
+            if (m.trapped) dead.add(w);
+            give(w);
+          }
+        };
+        w.onerror = () => {
+          // a worker lost mid-run: its points are reported as failed
+          for (let i = lo; i < hi; i++) {
+            if (!points[i]) {
+              points[i] = { x: xs[i], summary: null, error: "the worker computing this point stopped" };
+              onPoint(i, points[i]);
+            }
+          }
+          busy -= 1;
+          dead.add(w);
+          give(w);
+        };
+        w.postMessage({ type: "run", id, json, path, start: lo, xs: xs.slice(lo, hi) });
+      };
+      ws.forEach(give);
+    });
+  }
+
+  // For the benchmark (bench/wasm.mjs): the page's sweep without its form.
+  globalThis.RectifieldSweep = {
+    run: (json, path, xs) => sweepPoints(json, path, xs, () => {}, () => false),
+  };
+
   async function runSweep() {
     const msg = $("#sweep-msg");
     if (sweep && sweep.running) return;
@@ -1376,40 +1654,30 @@
     $("#sweep-run").disabled = true;
     $("#panel-sweep").setAttribute("data-state", "running");
     msg.textContent = "Running…";
-    let failed = 0;
-    // One run: each point starts from the previous solved one (fewer periods).
-    let run = null;
-    try {
-      run = new wasm_bindgen.SweepRun(json, path);
-    } catch (err) {
-      run = null; // each point below then reports the error
-    }
-    // Give the page a frame (progress, Cancel) about every 40 ms of work, not
-    // after every point: a timer yield costs about 4 ms in every browser.
-    let slice = performance.now();
-    for (let i = 0; i < xs.length; i++) {
-      if (sweep.cancel) break;
-      let p;
-      try {
-        p = run ? run.point(xs[i]) : wasm_bindgen.sweep_point(json, path, xs[i]);
-      } catch (err) {
-        p = { x: xs[i], summary: null, error: String(err) };
-      }
-      if (!p.summary) failed += 1;
-      sweep.points.push(p);
-      if (performance.now() - slice > 40 || i === xs.length - 1) {
-        prog.value = i + 1;
-        msg.textContent = `Point ${i + 1} of ${xs.length}`;
-        await new Promise((r) => setTimeout(r, 0));
-        slice = performance.now();
-      }
-    }
-    if (run) run.free();
+    let got = 0;
+    let shown = 0;
+    const show = () => {
+      shown = performance.now();
+      prog.value = got;
+      msg.textContent = `Point ${got} of ${xs.length}`;
+    };
+    const run = await sweepPoints(
+      json,
+      path,
+      xs,
+      () => {
+        got += 1;
+        if (performance.now() - shown > 40) show();
+      },
+      () => sweep.cancel,
+    );
+    sweep.points = run.points.filter(Boolean);
+    const failed = sweep.points.filter((p) => !p.summary).length;
     sweep.running = false;
     $("#sweep-cancel").disabled = true;
     $("#sweep-run").disabled = false;
     prog.hidden = true;
-    const cancelled = sweep.cancel;
+    const cancelled = sweep.cancel && sweep.points.length < xs.length;
     $("#panel-sweep").setAttribute("data-state", cancelled ? "cancelled" : "done");
     msg.textContent =
       (cancelled ? `Cancelled after ${sweep.points.length} of ${xs.length} points.` : `Done: ${xs.length} points.`) +
@@ -1746,7 +2014,8 @@
     }
     document.documentElement.setAttribute("data-theme", theme);
     // Async init: Chromium refuses synchronous compiles of large modules.
-    await wasm_bindgen({ module_or_path: await engineBytes() });
+    engineModule = await WebAssembly.compile(await engineBytes());
+    await wasm_bindgen({ module_or_path: engineModule });
     try {
       wasm_bindgen.install_panic_hook();
     } catch (_) {

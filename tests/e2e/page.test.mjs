@@ -593,6 +593,48 @@ for (const b of BROWSERS) {
       await page.click('[data-tab="waves"]');
     });
 
+    test("a sweep spread over Web Workers gives the one-run sweep's figures", async () => {
+      // The page's sweep (app.js, sweepPoints) against one SweepRun on the
+      // page's thread, the same points.  Each worker run's first point starts
+      // cold where the one run starts warm, so the figures agree within the
+      // warm-start tolerance (DEVELOPERS.md, "Warm starts": 8e-5 relative at
+      // most, measured); the first point is cold in both and the same engine
+      // computes it, so it agrees to the bit.
+      const r = await page.evaluate(async () => {
+        const s = wasm_bindgen.default_scenario();
+        const v = s.supply.v_ll_rms_v;
+        const xs = Array.from({ length: 40 }, (_, i) => v * (0.9 + (0.2 * i) / 39));
+        const json = JSON.stringify(s);
+        const par = await RectifieldSweep.run(json, "supply.v_ll_rms_v", xs);
+        const run = new wasm_bindgen.SweepRun(json, "supply.v_ll_rms_v");
+        const one = xs.map((x) => run.point(x));
+        run.free();
+        let worst = 0;
+        let where = "";
+        let missing = 0;
+        for (let i = 0; i < xs.length; i++) {
+          const a = par.points[i] && par.points[i].summary;
+          const b = one[i].summary;
+          if (!a || !b) {
+            missing += 1;
+            continue;
+          }
+          for (const k of Object.keys(b)) {
+            if (typeof b[k] !== "number") continue;
+            const d = Math.abs(a[k] - b[k]) / Math.max(Math.abs(b[k]), 1e-9);
+            if (d > worst) [worst, where] = [d, `${k} at point ${i}`];
+          }
+        }
+        const first = JSON.stringify(par.points[0]) === JSON.stringify(one[0]);
+        return { workers: par.workers, n: par.points.length, missing, worst, where, first };
+      });
+      assert.ok(r.workers >= 1, `the sweep ran on the page's thread (workers ${r.workers})`);
+      assert.equal(r.n, 40);
+      assert.equal(r.missing, 0, "every point solved");
+      assert.ok(r.worst <= 2e-4, `worst relative difference ${r.worst} (${r.where})`);
+      assert.ok(r.first, "the first point, cold in both, is the same to the bit");
+    });
+
     test("save and open restore every field", async () => {
       let n = await computed();
       await page.select("#examples", "plating_rectifier");
