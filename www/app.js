@@ -1656,17 +1656,20 @@
     msg.textContent = "Running…";
     let got = 0;
     let shown = 0;
+    const sofar = new Array(xs.length);
     const show = () => {
       shown = performance.now();
       prog.value = got;
       msg.textContent = `Point ${got} of ${xs.length}`;
+      sweep.points = sofar.filter(Boolean); // what a plot drawn meanwhile shows
     };
     const run = await sweepPoints(
       json,
       path,
       xs,
-      () => {
+      (i, p) => {
         got += 1;
+        sofar[i] = p;
         if (performance.now() - shown > 40) show();
       },
       () => sweep.cancel,
