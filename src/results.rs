@@ -622,7 +622,7 @@ fn compare(
         "A",
         tb.device_rms_a,
         dev_rms,
-        "Id/sqrt3 (six-pulse): 120-degree blocks of a ripple-free current",
+        "bridge DC current / sqrt3: each device carries 120-degree blocks of a ripple-free current",
     ));
     out
 }

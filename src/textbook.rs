@@ -41,7 +41,14 @@
 //!   drop `3 w Ls Id / (2 pi)`.  Each phase (and device) carries a 120-degree
 //!   block of `Id` (it contains a DC part `Id/3`): `I_rms = Id / sqrt3`,
 //!   `I_1 = (sqrt6 / (2 pi)) Id`, harmonics at every order not a multiple of 3.
-//!   Peak reverse voltage `sqrt2 V`.
+//!   Peak reverse voltage `sqrt2 V`.  Power factor at the supply terminals (no
+//!   transformer in between, so the DC part `Id/3` flows in the supply):
+//!   `P = Vdo cos(alpha) Id` and `S = 3 V_ph I_rms = sqrt3 V_ph Id`, so
+//!   `PF = (3 sqrt2 / (2 pi)) cos(alpha) = 0.6752 cos(alpha)`; the same comes
+//!   from `P = 3 V_ph I_1 cos(alpha)` with distortion factor `I_1 / I_rms
+//!   = 3 sqrt2 / (2 pi)`.  (The often-quoted 0.827 = (3/pi) cos 30 deg is the
+//!   primary-side figure of a delta-star transformer feeding the star, which
+//!   blocks the DC part; Rectifield has no such transformer on this bridge.)
 //! * Twelve-pulse (two six-pulse bridges on secondaries 30 degrees apart, equal
 //!   line-to-line voltage `V` on each): the primary current has only
 //!   `h = 12k +- 1`, `I_h = I_1 / h`, THD `= 15.22 %` (the infinite sum).  In
@@ -314,13 +321,11 @@ fn evaluate_inner(input: &TextbookInput) -> Result<TextbookResult, FieldError> {
     }
     let mu = overlap_rad.unwrap_or(0.0);
     let displacement_factor = (alpha + mu / 2.0).cos();
-    let distortion_factor = match input.family {
-        PulseFamily::ThreePulse => {
-            let dc = bridge_id / 3.0;
-            line_fundamental_a / (line_rms_a * line_rms_a - dc * dc).sqrt()
-        }
-        _ => line_fundamental_a / line_rms_a,
-    };
+    // I_1 / I_rms with the whole RMS, DC part included for the three-pulse
+    // bridge: the power factor at the supply terminals is P / (3 V_ph I_rms),
+    // and the DC part of the phase current carries no power but does load the
+    // supply (derivation in the module docs).
+    let distortion_factor = line_fundamental_a / line_rms_a;
     let device_avg_a = bridge_id / 3.0;
     let device_rms_a = bridge_id / 3f64.sqrt();
     let pdo_w = vdo * id;
@@ -477,6 +482,25 @@ mod tests {
         let v_ph = 415.0 / 3f64.sqrt();
         assert!((r.vdo_v / v_ph - 1.169_5).abs() < 1e-4);
         assert!((r.device_rms_a - 120.0 / 3f64.sqrt()).abs() < 1e-9);
+        // Power factor at the supply terminals = Vdo Id / (3 V_ph I_rms)
+        // = 3 sqrt2 / (2 pi) = 0.6752, derived in the module docs from the
+        // definition PF = P / S (S = 3 V_ph I_rms for a balanced load).
+        let pf_def = r.pdo_w / (3.0 * v_ph * r.line_rms_a);
+        assert!(
+            (r.power_factor - pf_def).abs() < 1e-12,
+            "{}",
+            r.power_factor
+        );
+        assert!(
+            (r.power_factor - 0.675_2).abs() < 1e-4,
+            "{}",
+            r.power_factor
+        );
+        // With firing delay: P scales with cos(alpha), S does not.
+        let mut i = base(PulseFamily::ThreePulse);
+        i.alpha_rad = 40f64.to_radians();
+        let r = evaluate(&i).unwrap();
+        assert!((r.power_factor - 0.675_2 * 40f64.to_radians().cos()).abs() < 1e-4);
     }
 
     #[test]

@@ -195,6 +195,22 @@ fn three_pulse_ideal_figures() {
         assert!(rel(d.i_rms_a, id / 3f64.sqrt()) < 1e-3);
         assert!(rel(d.v_reverse_peak_v, SQRT_2 * 440.0) < 1e-3);
     }
+    // Power factor at the supply terminals: P / (3 V_ph I_rms) with the DC part
+    // of the phase current in I_rms = 3 sqrt2 / (2 pi) = 0.6752 (derived from
+    // the definition PF = P / S in src/textbook.rs's module docs); the closed
+    // form shown beside the exact result must agree with the simulation here.
+    assert!(
+        rel(r.total.power_factor, 3.0 * SQRT_2 / (2.0 * PI)) < 2e-3,
+        "{}",
+        r.total.power_factor
+    );
+    let tb = &a.textbook;
+    assert!(
+        rel(tb.power_factor, r.total.power_factor) < 2e-3,
+        "{} vs {}",
+        tb.power_factor,
+        r.total.power_factor
+    );
 }
 
 #[test]
