@@ -287,15 +287,14 @@ fn compliance(o: &mut String, c: &crate::compliance::Compliance) {
         ie.row,
         ie.i_l_a
     );
+    // Failing single-order checks are listed, at most `MAX_ORDERS` (the rest
+    // are counted; `--json` has them all), or the three closest to their
+    // limits when none fails; the whole-waveform checks (TDD, THD, THC, PWHC,
+    // dc offset) are always listed, failing or not.
+    const MAX_ORDERS: usize = 12;
+    let single = |k: &Check| matches!(k.order, Some(h) if h > 0);
     let shown = |o: &mut String, checks: &[Check]| {
-        let mut list: Vec<&Check> = checks.iter().filter(|k| !k.pass).collect();
-        if list.is_empty() {
-            // Nothing fails: the three closest to their limits.
-            let mut all: Vec<&Check> = checks.iter().filter(|k| k.limit > 0.0).collect();
-            all.sort_by(|a, b| (a.margin / a.limit).total_cmp(&(b.margin / b.limit)));
-            list = all.into_iter().take(3).collect();
-        }
-        for k in list.iter().take(12) {
+        let row = |o: &mut String, k: &Check| {
             let _ = writeln!(
                 o,
                 "    {:<10} {:>9.3} limit {:>7.3} margin {:>9.3} {} ({}) {}",
@@ -307,6 +306,32 @@ fn compliance(o: &mut String, c: &crate::compliance::Compliance) {
                 k.phase,
                 if k.pass { "pass" } else { "FAIL" }
             );
+        };
+        let failing: Vec<&Check> = checks.iter().filter(|k| !k.pass && single(k)).collect();
+        if failing.is_empty() {
+            // No single order fails: the three closest to their limits.
+            let mut all: Vec<&Check> = checks
+                .iter()
+                .filter(|k| k.limit > 0.0 && single(k))
+                .collect();
+            all.sort_by(|a, b| (a.margin / a.limit).total_cmp(&(b.margin / b.limit)));
+            for k in all.into_iter().take(3) {
+                row(o, k);
+            }
+        } else {
+            for k in failing.iter().take(MAX_ORDERS) {
+                row(o, k);
+            }
+            if failing.len() > MAX_ORDERS {
+                let _ = writeln!(
+                    o,
+                    "    ... and {} more orders fail (all of them: --json)",
+                    failing.len() - MAX_ORDERS
+                );
+            }
+        }
+        for k in checks.iter().filter(|k| !single(k)) {
+            row(o, k);
         }
     };
     if let Some(p) = &ie.pulse_allowance {
@@ -374,4 +399,32 @@ fn compliance(o: &mut String, c: &crate::compliance::Compliance) {
         let _ = writeln!(o, "  note: {n}");
     }
     let _ = writeln!(o, "  {}", c.governing_note);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn check_text_lists_tdd_and_dc_offset_past_many_failing_orders() {
+        // The three-pulse heater fails IEEE 519 at some thirty orders; the
+        // TDD and dc-offset checks must still be in the text report.
+        let s = crate::examples::three_pulse_heater();
+        let a = crate::analysis::analyze(&s).unwrap();
+        let t = compliance_text(&s, &a);
+        let c = a.compliance.as_ref().unwrap();
+        let fails = c
+            .ieee519
+            .current
+            .iter()
+            .filter(|k| !k.pass && matches!(k.order, Some(h) if h > 0))
+            .count();
+        assert!(fails > 12, "{fails}");
+        assert!(t.contains("more orders fail"), "{t}");
+        assert!(t.lines().any(|l| l.trim_start().starts_with("TDD")), "{t}");
+        assert!(
+            t.lines().any(|l| l.trim_start().starts_with("dc offset")),
+            "{t}"
+        );
+    }
 }
