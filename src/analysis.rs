@@ -148,6 +148,15 @@ pub fn analyze_from(
         Ok(sim) => {
             warnings.extend(sim.warnings.iter().cloned());
             let r = crate::results::compute(s, &derived, &sim, &textbook);
+            if let Some(c) = r.ratings.capacitor.as_ref().filter(|c| c.over_rating) {
+                warnings.push(format!(
+                    "bus capacitor overloaded: {:.1} A RMS ripple in {} mOhm ESR heats its core to {:.0} °C, above its rated {:.0} °C",
+                    c.i_rms_a,
+                    crate::validate::fmt(s.dc.cap_esr_ohm * 1e3),
+                    c.core_temp_c,
+                    s.dc.cap_rated_temp_c
+                ));
+            }
             (Some(sim), Some(r))
         }
         Err(e) => {

@@ -10,6 +10,7 @@ usage:
   rectifield solve FILE [--json]                 analyse a scenario (FILE, or - for standard input)
   rectifield sweep FILE --vary PATH=FROM:TO:N    CSV of the headline results over a sweep
   rectifield check FILE [--json]                 grid-compliance verdict (exit status 1 when it fails)
+  rectifield field FILE [--json]                 field check: expected DC bus and the faults that fit the readings
   rectifield examples DIR                        write the built-in example scenarios to DIR
   rectifield example                             print the default scenario as JSON
   rectifield COMMAND --help                      help for one command

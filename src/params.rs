@@ -58,7 +58,8 @@ fn split(z_ohm: f64, x_over_r: f64) -> (f64, f64) {
     (r, r * x_over_r)
 }
 
-/// Rated load power: the user's value, or an estimate from the load.
+/// Rated load power: the user's value, or an estimate from the load; 0 when
+/// neither gives one (no rating and a load that draws nothing).
 pub fn rated_power_w(s: &Scenario) -> f64 {
     if s.analysis.rated_power_w > 0.0 {
         return s.analysis.rated_power_w;
@@ -76,7 +77,7 @@ pub fn rated_power_w(s: &Scenario) -> f64 {
     if p.is_finite() && p > 0.0 {
         p
     } else {
-        1.0
+        0.0
     }
 }
 
@@ -117,6 +118,14 @@ pub fn derive(s: &Scenario) -> Result<Derived, FieldError> {
         }
     };
     let rated_power_w = rated_power_w(s);
+    if rated_power_w <= 0.0 {
+        // A percent reactor, IL for TDD, the compliance limits and the
+        // solver's scaling all rest on the rating: ask for it by name.
+        return Err(err(
+            "analysis.rated_power_w",
+            "is 0 (take it from the load), but the load draws no power: give the equipment's rated power; the line reactor's % impedance, IL for TDD and the compliance checks are on it",
+        ));
+    }
     let (r_x, l_x) = match &s.source.reactor {
         LineReactor::None => (0.0, 0.0),
         LineReactor::Henry { l_h, r_ohm } => (
@@ -152,6 +161,23 @@ pub fn derive(s: &Scenario) -> Result<Derived, FieldError> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn no_load_without_a_rating_asks_for_the_rating_by_name() {
+        let mut s = Scenario::default();
+        s.dc.load = DcLoad::ConstantPower { p_w: 0.0 };
+        s.analysis.rated_power_w = 0.0;
+        let e = derive(&s).unwrap_err();
+        assert_eq!(e.field, "analysis.rated_power_w");
+        // With the rating given, the unloaded drive solves: its capacitor bus
+        // charges to the peak line-to-line voltage, sqrt2 x 400 V = 565.7 V,
+        // less the bleed resistor's tiny draw (common practice: the no-load
+        // bus of a diode front end sits at the supply's line-to-line peak).
+        s.analysis.rated_power_w = 45e3;
+        let a = crate::analysis::analyze(&s).unwrap();
+        let v = a.results.unwrap().dc.v_avg_v;
+        assert!((v / (2f64.sqrt() * 400.0) - 1.0).abs() < 1e-3, "{v}");
+    }
 
     #[test]
     fn transformer_percent_impedance() {

@@ -130,8 +130,11 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
         let rt = &r.ratings;
         let _ = writeln!(
             o,
-            "  suggested voltage class {:.0} V ({:.2} x peak line voltage; {})",
-            rt.suggested_voltage_class_v, rt.voltage_class_margin, rt.voltage_class_note
+            "  suggested voltage class {:.0} V ({:.2} x peak line voltage, {:.2} x worst device voltage; {})",
+            rt.suggested_voltage_class_v,
+            rt.voltage_class_margin,
+            rt.voltage_class_over_worst,
+            rt.voltage_class_note
         );
         line(&mut o, "line reactor current RMS", rt.reactor_i_rms_a, "A");
         line(
@@ -169,6 +172,7 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
             }
             line(&mut o, "ESR loss", c.esr_loss_w, "W");
             line(&mut o, "temperature rise", c.temp_rise_k, "K");
+            line(&mut o, "core temperature", c.core_temp_c, "degC");
             line(&mut o, "life estimate", c.life_estimate_h, "h");
             let _ = writeln!(o, "  ({})", c.note);
         }

@@ -113,8 +113,11 @@ pub struct CapacitorFigures {
     pub esr_loss_w: f64,
     pub temp_rise_k: f64,
     pub core_temp_c: f64,
-    /// Rule of thumb: life doubles for each 10 K below the rated temperature.
+    /// Rule of thumb: life doubles for each 10 K below the rated temperature;
+    /// 0 when the core is above the rated temperature (`over_rating`).
     pub life_estimate_h: f64,
+    /// The core temperature is above the capacitor's rated temperature.
+    pub over_rating: bool,
     pub note: String,
 }
 
@@ -139,6 +142,9 @@ pub struct Ratings {
     /// Suggested module voltage class, V, and the margin over the peak line voltage.
     pub suggested_voltage_class_v: f64,
     pub voltage_class_margin: f64,
+    /// The suggested class over the worst device voltage simulated (0 when
+    /// no device sees a voltage).
+    pub voltage_class_over_worst: f64,
     pub voltage_class_note: String,
     pub total_conduction_loss_w: f64,
     pub reactor_i_rms_a: f64,
@@ -446,7 +452,14 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
         let loss = esr * ic.rms * ic.rms;
         let rise = loss * s.dc.cap_rth_k_per_w.max(0.0);
         let core = s.dc.ambient_c + rise;
-        let life = s.dc.cap_rated_life_h * 2f64.powf((s.dc.cap_rated_temp_c - core) / 10.0);
+        // Above its rated (category) temperature a capacitor is outside its
+        // data sheet: no life is promised there, so none is extrapolated.
+        let over_rating = core > s.dc.cap_rated_temp_c;
+        let life = if over_rating {
+            0.0
+        } else {
+            s.dc.cap_rated_life_h * 2f64.powf((s.dc.cap_rated_temp_c - core) / 10.0)
+        };
         CapacitorFigures {
             i_rms_a: ic.rms,
             // Percent of the capacitor's RMS current (there is no fundamental to refer to).
@@ -455,7 +468,15 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
             temp_rise_k: rise,
             core_temp_c: core,
             life_estimate_h: life,
-            note: "rule of thumb: life doubles for every 10 K below the rated temperature; ESR taken as constant over frequency; the maker's data governs".into(),
+            over_rating,
+            note: if over_rating {
+                format!(
+                    "OVERLOADED: the core would reach {core:.0} °C, above the rated {:.0} °C; the ripple current is too much for this ESR and cooling, and no life is given (shown as 0). Check the capacitance and ESR (an aged bank reads low C, high ESR), the ripple current rating and the cooling; the maker's data governs",
+                    s.dc.cap_rated_temp_c
+                )
+            } else {
+                "rule of thumb: life doubles for every 10 K below the rated temperature; ESR taken as constant over frequency; the maker's data governs".into()
+            },
         }
     });
     let ratings = Ratings {
@@ -463,6 +484,7 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
         worst_device_voltage_v: worst_v,
         suggested_voltage_class_v: class,
         voltage_class_margin: class / peak_line,
+        voltage_class_over_worst: if worst_v > 0.0 { class / worst_v } else { 0.0 },
         voltage_class_note: format!(
             "common practice: about 2 to 2.5 x the peak line voltage ({:.0} V), rounded up to a standard class",
             peak_line

@@ -52,6 +52,10 @@ pub struct Scenario {
     pub source: Source,
     pub bridge: Bridge,
     pub dc: DcSide,
+    /// Field-level default: a file without `analysis` gets
+    /// `AnalysisSettings::default()` (rating 0 = from the load), not the
+    /// default scenario's 45 kW rating.
+    #[serde(default)]
     pub analysis: AnalysisSettings,
     /// Grid compliance settings (see `crate::compliance`).
     #[serde(default)]
@@ -68,7 +72,12 @@ impl Default for Scenario {
             source: Source::default(),
             bridge: Bridge::default(),
             dc: DcSide::default(),
-            analysis: AnalysisSettings::default(),
+            // The drive's rating, so that changing its load keeps the 3 %
+            // reactor's henries (a rating of 0 would follow the load).
+            analysis: AnalysisSettings {
+                rated_power_w: 45e3,
+                ..AnalysisSettings::default()
+            },
             compliance: Default::default(),
         }
     }
@@ -311,7 +320,8 @@ pub struct AnalysisSettings {
     pub grid_points: usize,
     /// Rated load power, W, used for reactor percent and the demand current (0 = from the load).
     pub rated_power_w: f64,
-    /// Maximum demand load current IL for TDD, A RMS (0 = the computed fundamental).
+    /// Maximum demand load current IL for TDD, A RMS (0 = the rated fundamental
+    /// current `rated_power_w / (sqrt3 V_LL)`).
     pub demand_current_a: f64,
     /// Power-up transient length in supply cycles (0 = none).
     pub transient_cycles: u32,

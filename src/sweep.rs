@@ -315,6 +315,22 @@ pub fn xs(spec: &SweepSpec) -> Vec<f64> {
         .collect()
 }
 
+/// The scenario every point of a sweep of `path` starts from: `s` without
+/// the power-up transient and the fix search (see [`Sweeper`]), and, for a
+/// sweep of the load, with the rating pinned: a rating taken from the load
+/// (0) becomes the base case's, so that a percent line reactor keeps its
+/// henries and IL its amperes at every point (the equipment does not change
+/// with its load).
+pub fn base_scenario(s: &Scenario, path: &str) -> Scenario {
+    let mut base = s.clone();
+    if path.starts_with("dc.load.") && base.analysis.rated_power_w <= 0.0 {
+        base.analysis.rated_power_w = crate::params::rated_power_w(s);
+    }
+    base.analysis.transient_cycles = 0;
+    base.compliance.search_fixes = false;
+    base
+}
+
 /// Run one sweep point on its own (a cold solve; see [`Sweeper`] for a run
 /// of points).
 pub fn point(s: &Scenario, path: &str, x: f64) -> SweepPoint {
@@ -347,11 +363,8 @@ impl Sweeper {
     }
 
     fn new_unchecked(s: &Scenario, path: &str) -> Sweeper {
-        let mut base = s.clone();
-        base.analysis.transient_cycles = 0;
-        base.compliance.search_fixes = false;
         Sweeper {
-            base: serde_json::to_value(&base).unwrap_or_default(),
+            base: serde_json::to_value(base_scenario(s, path)).unwrap_or_default(),
             path: path.to_string(),
             solved: Vec::new(),
         }
@@ -448,6 +461,33 @@ pub fn to_csv(spec: &SweepSpec, pts: &[SweepPoint]) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_load_sweep_keeps_the_rating_the_base_load_gave() {
+        // Rating 0 = from the load: the base case's 45 kW sizes the 3 %
+        // reactor.  A load-sweep point at 20 kW must keep that reactor (the
+        // equipment does not change with its load), i.e. equal the analysis
+        // with the rating pinned to 45 kW, and differ from re-rating at 20 kW.
+        use crate::scenario::DcLoad;
+        let mut s = Scenario::default();
+        s.analysis.rated_power_w = 0.0;
+        let p = point(&s, "dc.load.p_w", 20e3).summary.unwrap();
+        let mut pinned = s.clone();
+        pinned.dc.load = DcLoad::ConstantPower { p_w: 20e3 };
+        pinned.analysis.rated_power_w = 45e3;
+        let q = summarize(&crate::analysis::analyze(&pinned).unwrap()).unwrap();
+        assert!((p.v_dc_avg_v - q.v_dc_avg_v).abs() < 1e-6 * q.v_dc_avg_v);
+        assert!((p.i_line_rms_a - q.i_line_rms_a).abs() < 1e-6 * q.i_line_rms_a);
+        let mut rerated = pinned.clone();
+        rerated.analysis.rated_power_w = 0.0;
+        let r = summarize(&crate::analysis::analyze(&rerated).unwrap()).unwrap();
+        assert!(
+            (p.v_dc_avg_v - r.v_dc_avg_v).abs() > 1.0,
+            "{} {}",
+            p.v_dc_avg_v,
+            r.v_dc_avg_v
+        );
+    }
 
     #[test]
     fn vary_parses_and_rejects() {

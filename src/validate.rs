@@ -82,7 +82,7 @@ fn load_resistance(x: f64, field: &str) -> Result<(), FieldError> {
 }
 
 /// A short number for messages.
-fn fmt(x: f64) -> String {
+pub(crate) fn fmt(x: f64) -> String {
     if x == 0.0 || (1e-3..1e6).contains(&x.abs()) {
         let s = format!("{x:.4}");
         let s = s.trim_end_matches('0').trim_end_matches('.');
@@ -605,10 +605,26 @@ pub fn validate(s: &Scenario) -> Result<Vec<String>, FieldError> {
         (d.l_reactor_h, "source.reactor"),
     ] {
         if x > L_MAX_H {
+            // A percent reactor is on the rated load power: say which.
+            let basis = match (&s.source.reactor, field) {
+                (crate::scenario::LineReactor::Percent { z_pct, .. }, "source.reactor") => {
+                    format!(
+                        " ({} % on a rated load power of {} W{})",
+                        fmt(*z_pct),
+                        fmt(d.rated_power_w),
+                        if a.rated_power_w > 0.0 {
+                            ""
+                        } else {
+                            ", taken from the load"
+                        }
+                    )
+                }
+                _ => String::new(),
+            };
             return Err(fe(
                 field,
                 format!(
-                    "gives {} H per phase, above the 10 H this engine handles",
+                    "gives {} H per phase{basis}, above the 10 H this engine handles",
                     fmt(x)
                 ),
             ));

@@ -4,7 +4,19 @@ use rectifield::scenario::{from_json, to_json, Scenario, SCHEMA_VERSION};
 
 #[test]
 fn empty_object_is_the_default_scenario() {
-    assert_eq!(from_json("{}").unwrap(), Scenario::default());
+    // One difference, documented in docs/scenario-format.md: a file without
+    // an `analysis` section takes its rating from the load (0), which for
+    // the default drive's 45 kW load is the default scenario's 45 kW rating.
+    let parsed = from_json("{}").unwrap();
+    let mut default = Scenario::default();
+    assert_eq!(default.analysis.rated_power_w, 45e3);
+    assert_eq!(parsed.analysis.rated_power_w, 0.0);
+    assert_eq!(
+        rectifield::params::derive(&parsed).unwrap(),
+        rectifield::params::derive(&default).unwrap()
+    );
+    default.analysis.rated_power_w = 0.0;
+    assert_eq!(parsed, default);
 }
 
 #[test]

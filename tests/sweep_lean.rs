@@ -29,7 +29,9 @@ use common::rng::{random_scenario, Rng};
 use rectifield::analysis::{analyze, analyze_from, Analysis};
 use rectifield::scenario::{from_json, DcLoad, Scenario};
 use rectifield::sim::WarmStart;
-use rectifield::sweep::{point, summarize, with_value, SweepPoint, Sweeper, SUMMARY_FIELDS};
+use rectifield::sweep::{
+    base_scenario, point, summarize, with_value, SweepPoint, Sweeper, SUMMARY_FIELDS,
+};
 
 /// The sweep point of `sweep::Sweeper` as it was before the sweep path
 /// left out what the summary does not read: each point the full analysis
@@ -43,9 +45,7 @@ struct FullSweeper {
 
 impl FullSweeper {
     fn new(s: &Scenario, path: &str) -> FullSweeper {
-        let mut base = s.clone();
-        base.analysis.transient_cycles = 0;
-        base.compliance.search_fixes = false;
+        let base = base_scenario(s, path);
         FullSweeper {
             base,
             path: path.into(),
@@ -130,9 +130,7 @@ fn same(a: &SweepPoint, b: &SweepPoint) -> Result<(), String> {
 /// The cold single point against the analysis of the scenario at `x` with
 /// a sweep's settings (no power-up transient, no fix search).
 fn cold_point_matches_analysis(s: &Scenario, path: &str, x: f64) -> Result<(), String> {
-    let mut base = s.clone();
-    base.analysis.transient_cycles = 0;
-    base.compliance.search_fixes = false;
+    let base = base_scenario(s, path);
     let want = point_of(
         x,
         with_value(&base, path, x).and_then(|sc| analyze(&sc).map_err(|e| e.to_string())),

@@ -244,7 +244,7 @@
       id: "fs-analysis",
       fields: [
         { id: "rated_power_w", path: "analysis.rated_power_w", label: "Rated load power", unit: "kW", base: "W", scale: 1e3, hint: "0 = from the load" },
-        { id: "demand_current_a", path: "analysis.demand_current_a", label: "Maximum demand current IL", unit: "A", base: "A", hint: "for TDD; 0 = the computed fundamental" },
+        { id: "demand_current_a", path: "analysis.demand_current_a", label: "Maximum demand current IL", unit: "A", base: "A", hint: "for TDD; 0 = the rated current, rated power / (√3 × line voltage)" },
         { id: "converters_at_pcc", path: "compliance.converters_at_pcc", label: "Identical converters at the PCC", unit: "", base: "", int: true, optional: true },
         { id: "h_max", path: "analysis.h_max", label: "Highest harmonic order", unit: "", base: "", int: true },
         { id: "grid_points", path: "analysis.grid_points", label: "Samples per period", unit: "", base: "", int: true },
@@ -653,7 +653,7 @@
             ["Maximum voltage", "results.dc.v_max_v", "V"],
             ["Ripple, peak to peak", "results.dc.ripple_pp_v", "V"],
             ["Ripple, RMS", "results.dc.ripple_rms_v", "V"],
-            ["Ripple factor", "results.dc.ripple_factor", ""],
+            ["Ripple factor (ripple RMS / average)", "results.dc.ripple_factor", "%", 100],
             ["Dominant ripple frequency", "results.dc.ripple_dominant_hz", "Hz"],
             ["Average current", "results.dc.i_avg_a", "A"],
             ["RMS current", "results.dc.i_rms_a", "A"],
@@ -727,7 +727,8 @@
             [
               ["Worst device voltage", "results.ratings.worst_device_voltage_v", "V"],
               ["Suggested voltage class", "results.ratings.suggested_voltage_class_v", "V"],
-              ["Class / worst voltage", "results.ratings.voltage_class_margin", ""],
+              ["Class / peak line voltage", "results.ratings.voltage_class_margin", ""],
+              ["Class / worst device voltage", "results.ratings.voltage_class_over_worst", ""],
               ["Total conduction loss", "results.ratings.total_conduction_loss_w", "W"],
               ["Line reactor current, RMS", "results.ratings.reactor_i_rms_a", "A"],
               ["Line reactor current, peak", "results.ratings.reactor_i_peak_a", "A"],
@@ -980,6 +981,13 @@
       t.appendChild(v);
       t.appendChild(el("span", { class: "tile-sub" }, "an indication; details below"));
       host.appendChild(t);
+    }
+    // The warnings, where the eye is: the first in full, the count, a link to all.
+    const w = allWarnings(a);
+    if (w.length) {
+      const p = el("p", { class: "glance-warn", "data-out": "glance.warnings" }, "⚠ " + w[0] + " ");
+      p.appendChild(el("a", { href: "#out-warnings" }, w.length > 1 ? `all ${w.length} warnings below` : "under Warnings below"));
+      host.appendChild(p);
     }
   }
 

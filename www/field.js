@@ -65,6 +65,18 @@
     },
   ];
   const FIELDS = [].concat(...GROUPS.map((g) => g.fields));
+  // The engine names inputs by their JSON names (the CLI reads JSON); the page
+  // shows its own labels instead: "rating_kw" -> "Drive rating".
+  const PLAIN = new Map();
+  for (const f of FIELDS) {
+    const leaf = f.path.split(".").pop();
+    if (PLAIN.has(leaf) || /^(pct|digits|resolution)$/.test(leaf)) continue;
+    PLAIN.set(leaf, f.tri === undefined ? f.label : f.label.replace(/\s*L\d(-L\d)?$/, "s"));
+  }
+  const PLAIN_RE = new RegExp("\\b(?:[a-z_]+\\.)*(" + [...PLAIN.keys()].join("|") + ")\\b", "g");
+  function plain(text) {
+    return String(text).replace(PLAIN_RE, (_, k) => "“" + PLAIN.get(k) + "”");
+  }
   const STORE_KEY = "rectifield.field";
   const DEBOUNCE_MS = 350;
 
@@ -175,7 +187,7 @@
   function setMsg(f, text) {
     const e = document.getElementById(f.id);
     const m = e.closest(".fc-field").querySelector(".fc-msg");
-    m.textContent = text || "";
+    m.textContent = text ? plain(text) : "";
     e.setAttribute("aria-invalid", text ? "true" : "false");
     e.closest(".fc-field").classList.toggle("fc-bad", !!text);
   }
@@ -266,7 +278,7 @@
           }
         }
       }
-      gen.textContent = marked ? "Complete or correct the marked field to see the expected bus." : "The check could not run: " + text;
+      gen.textContent = marked ? "Complete or correct the marked field to see the expected bus." : "The check could not run: " + plain(text);
       gen.hidden = false;
       setState(lastReport ? "stale" : "invalid");
       return;
@@ -352,7 +364,7 @@
     const notes = $("#fc-notes");
     notes.textContent = "";
     for (const w of r.warnings || []) notes.appendChild(el("li", { class: "fc-warning" }, w));
-    for (const a of r.assumptions || []) notes.appendChild(el("li", null, a));
+    for (const a of r.assumptions || []) notes.appendChild(el("li", null, plain(a)));
   }
 
   function signatureCard(s, rank, distance) {

@@ -93,6 +93,9 @@ for (const b of BROWSERS) {
       assert.equal(st, "invalid");
       const msg = await page.$eval("#f_rating_kw", (e) => e.closest(".fc-field").querySelector(".fc-msg").textContent);
       assert.match(msg, /rating/);
+      // The page's labels, not the engine's JSON names (rating_kw, load_kw).
+      assert.doesNotMatch(msg, /\b[a-z]+_[a-z_]+\b/, `JSON name in "${msg}"`);
+      assert.match(msg, /“Drive rating”/);
       const mode = await page.$eval("#f_dc_mean", (e) => e.getAttribute("inputmode"));
       assert.equal(mode, "decimal");
     });

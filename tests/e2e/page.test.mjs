@@ -477,6 +477,8 @@ for (const b of BROWSERS) {
       // with phase a open its line current is zero
       const rms = await page.$eval("#out-exact-line table.grid tbody tr td:nth-child(2)", (e) => Number(e.textContent));
       assert.ok(Math.abs(rms) < 1e-3, `phase a current with the phase lost: ${rms} A`);
+      // The warnings show beside the headline figures, not only far below.
+      assert.match(await out("glance.warnings"), /⚠/);
       await shotOf("#out-schematic", "schematic-lost-phase");
       n = await computed();
       await page.click("label[for=open_a]");
@@ -490,6 +492,26 @@ for (const b of BROWSERS) {
       assert.match(state, /OPEN/);
       n = await computed();
       await page.select("#open_device", "");
+      await waitRecomputed(n);
+    });
+
+    test("no load: the drive's bus sits at the line-to-line peak, on the same reactor", async () => {
+      // Common practice: an unloaded diode bridge charges its capacitor bus to
+      // the peak of the line-to-line voltage, sqrt2 x 400 V = 565.7 V.  The
+      // default drive states its 45 kW rating, so its 3 % reactor keeps its
+      // henries when the load changes.
+      const lr = await num("derived.l_reactor_h");
+      let n = await typeInto("load_p_w", "0");
+      await waitRecomputed(n);
+      const v = await num("glance.v_dc_avg_v");
+      assert.ok(close(v, Math.SQRT2 * 400, 2e-3), `no-load bus ${v} V`);
+      assert.equal(await num("derived.l_reactor_h"), lr, "the reactor's inductance follows the rating, not the load");
+      // The suggested class over the worst device voltage, as shown.
+      const cls = await num("results.ratings.suggested_voltage_class_v");
+      const worst = await num("results.ratings.worst_device_voltage_v");
+      const ratio = await num("results.ratings.voltage_class_over_worst");
+      assert.ok(close(ratio, cls / worst, 1e-3), `${ratio} vs ${cls} / ${worst}`);
+      n = await typeInto("load_p_w", "45");
       await waitRecomputed(n);
     });
 
