@@ -225,7 +225,7 @@ pub fn three_pulse_heater() -> Scenario {
 pub fn workshop_drive_no_reactor() -> Scenario {
     Scenario {
         name: "Workshop drive without reactor, 400 V 50 Hz".into(),
-        notes: "Demo case: a small drive on a stiff feed with neither line reactor nor DC choke."
+        notes: "Demo case: a small drive on a stiff feed with neither line reactor nor DC choke. The bus is a bank of four cans (0.35 K/W for the bank); the ripple current without a reactor takes it close to its rated temperature."
             .into(),
         source: Source {
             impedance: SourceImpedance::Transformer {
@@ -238,6 +238,7 @@ pub fn workshop_drive_no_reactor() -> Scenario {
         dc: DcSide {
             cap_f: 1.5e-3,
             cap_esr_ohm: 0.03,
+            cap_rth_k_per_w: 0.35,
             load: DcLoad::ConstantPower { p_w: 30e3 },
             ..DcSide::default()
         },
