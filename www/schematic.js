@@ -106,20 +106,22 @@
     rows.forEach((y, i) => {
       wire(`M${xs + 12} ${y} L70 ${y}`);
       coilH(70, y, 3);
-      wire(`M110 ${y} L170 ${y}`);
+      if (lost[i]) {
+        // Lost phase: the line is open upstream of the PCC (the engine opens
+        // it at the source), so that phase's PCC floats with the bridge.
+        wire(`M110 ${y} L116 ${y}`);
+        add("path", { d: `M116 ${y} l14 -9`, class: "w fault-w" });
+        add("path", { d: `M126 ${y - 8} l10 10 M136 ${y - 8} l-10 10`, class: "fault" });
+        label(128, y + 20, `phase ${names[i]} lost`, "fault-lbl");
+        wire(`M142 ${y} L170 ${y}`);
+      } else wire(`M110 ${y} L170 ${y}`);
       add("circle", { cx: 150, cy: y, r: 3, class: "dot" });
       if (hasReactor) {
         wire(`M170 ${y} L190 ${y}`);
         coilH(190, y, 4);
         wire(`M230 ${y} L250 ${y}`);
       } else wire(`M170 ${y} L250 ${y}`);
-      if (lost[i]) {
-        wire(`M250 ${y} L262 ${y}`);
-        add("path", { d: `M262 ${y} l14 -9`, class: "w fault-w" });
-        add("path", { d: `M272 ${y - 8} l10 10 M282 ${y - 8} l-10 10`, class: "fault" });
-        label(277, y + 20, `phase ${names[i]} lost`, "fault-lbl");
-        wire(`M290 ${y} L300 ${y}`);
-      } else wire(`M250 ${y} L300 ${y}`);
+      wire(`M250 ${y} L300 ${y}`);
     });
     label(90, rows[0] - 22, "source", "lbl small");
     label(90, rows[2] + 34, impText, "lbl small");
