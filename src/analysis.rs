@@ -101,6 +101,11 @@ pub(crate) struct Prepared {
     pub textbook: TextbookResult,
 }
 
+/// Below this extinction angle an inverting bridge is warned to be close to
+/// commutation failure (common practice, from memory: 15 to 20 degrees at
+/// 50/60 Hz covers turn-off time and supply dips).
+pub const EXTINCTION_MIN_DEG: f64 = 15.0;
+
 /// The input checks, the derived parameters and the closed forms of `s`:
 /// the start of every analysis, and of every sweep point (which must fail
 /// where the analysis fails, with its error).
@@ -148,6 +153,40 @@ pub fn analyze_from(
         Ok(sim) => {
             warnings.extend(sim.warnings.iter().cloned());
             let r = crate::results::compute(s, &derived, &sim, &textbook);
+            let whole: Vec<&str> = r
+                .ratings
+                .devices
+                .iter()
+                .filter(|d| d.conducts_whole_period)
+                .map(|d| d.name.as_str())
+                .collect();
+            if !whole.is_empty() {
+                warnings.push(format!(
+                    "{} never stop{} conducting: the bridge short-circuits its DC side ({}). Each device of a working bridge conducts for at most 120 degrees plus the overlap",
+                    whole.join(", "),
+                    if whole.len() == 1 { "s" } else { "" },
+                    if s.bridge.kind.is_controlled() && s.bridge.alpha_deg > 90.0 {
+                        "a commutation failure: firing angle plus overlap reach 180 degrees, so the outgoing thyristor is never turned off; fire earlier or lower the DC current or source inductance"
+                    } else {
+                        "the DC current is more than the source inductance lets the bridge commutate; the figures describe that short circuit"
+                    }
+                ));
+            }
+            if let Some(g) = r.dc.extinction_deg.filter(|g| *g < EXTINCTION_MIN_DEG) {
+                warnings.push(format!(
+                    "extinction angle {g:.1} degrees is below about {EXTINCTION_MIN_DEG:.0} degrees (common practice for line-commutated inverters, from memory: the thyristors' turn-off time and supply dips need the margin); the inverter is close to commutation failure"
+                ));
+            }
+            if let crate::scenario::DcLoad::ConstantPower { p_w } = s.dc.load {
+                let got = r.dc.p_load_w;
+                if p_w > 0.0 && (got - p_w).abs() > 0.01 * p_w {
+                    warnings.push(format!(
+                        "the constant-power load draws {:.2} kW, not its set {:.2} kW: the bus ripple is too large for its model (linearised about the mean bus voltage), so read the figures as those of a load near that power",
+                        got / 1e3,
+                        p_w / 1e3
+                    ));
+                }
+            }
             if let Some(c) = r.ratings.capacitor.as_ref().filter(|c| c.over_rating) {
                 warnings.push(format!(
                     "bus capacitor overloaded: {:.1} A RMS ripple in {} mOhm ESR heats its core to {:.0} °C, above its rated {:.0} °C",

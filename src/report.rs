@@ -57,6 +57,9 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
         if let Some(mu) = dc.overlap_deg {
             line(&mut o, "overlap angle (mean)", mu, "deg");
         }
+        if let Some(g) = dc.extinction_deg {
+            line(&mut o, "extinction angle (180 - alpha - mu)", g, "deg");
+        }
         line(&mut o, "DC load power", dc.p_load_w / 1e3, "kW");
         let _ = writeln!(o, "\nLine currents");
         for c in &r.line_currents {
@@ -185,11 +188,13 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
         for c in &r.comparisons {
             let _ = writeln!(
                 o,
-                "  {:<32} {:>12.4} {:>12.4} {:>9.2}  {}",
+                "  {:<32} {:>12.4} {:>12.4} {:>9}  {}",
                 format!("{} [{}]", c.quantity, c.unit),
                 c.textbook,
                 c.exact,
-                c.diff_pct,
+                c.diff_pct
+                    .map(|d| format!("{d:.2}"))
+                    .unwrap_or_else(|| "n/a".into()),
                 c.assumption
             );
         }
@@ -203,7 +208,19 @@ pub fn text(s: &Scenario, a: &Analysis) -> String {
         );
         if let Some(t) = &sim.transient {
             let _ = writeln!(o, "\nPower-up from a discharged bus");
-            line(&mut o, "inrush peak line current", t.inrush_peak_a, "A");
+            line(
+                &mut o,
+                "peak line current, whole power-up",
+                t.inrush_peak_a,
+                "A",
+            );
+            if let Some(x) = t.precharge_peak_a {
+                line(&mut o, "  through the precharge resistor", x, "A");
+            }
+            if let Some(x) = t.bypass_surge_a {
+                line(&mut o, "  after the bypass closed", x, "A");
+            }
+            line(&mut o, "highest bus voltage", t.v_dc_peak_v, "V");
             match t.charge_time_s {
                 Some(x) => line(&mut o, "time to 90 % of the steady bus", x * 1e3, "ms"),
                 None => {
@@ -365,6 +382,9 @@ fn compliance(o: &mut String, c: &crate::compliance::Compliance) {
         v(ie.voltage_verdict)
     );
     shown(o, &ie.voltage);
+    for n in &ie.notes {
+        let _ = writeln!(o, "  note: {n}");
+    }
     let iec = &c.iec61000_3_12;
     let _ = writeln!(
         o,
@@ -389,7 +409,11 @@ fn compliance(o: &mut String, c: &crate::compliance::Compliance) {
                 "    {} {:.1} %: {} (mean DC bus {})",
                 t.kind,
                 t.size_pct,
-                t.verdict.map(v).unwrap_or_else(|| t.note.clone()),
+                match (t.verdict, t.note.is_empty()) {
+                    (Some(x), true) => v(x),
+                    (Some(x), false) => format!("{}, {}", v(x), t.note),
+                    (None, _) => t.note.clone(),
+                },
                 t.v_dc_change_v
                     .map(|x| format!("{x:+.1} V"))
                     .unwrap_or_else(|| "-".into())

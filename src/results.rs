@@ -80,6 +80,13 @@ pub struct DcFigures {
     /// Mean commutation overlap angle, degrees (None when there is no overlap
     /// of two devices of one group).
     pub overlap_deg: Option<f64>,
+    /// Extinction (margin) angle of an inverting thyristor bridge,
+    /// `gamma = 180 - alpha - mu` in degrees with the simulated mean overlap
+    /// (Mohan, Undeland, Robbins, 3rd ed., sec. 6-6, inverter mode; section
+    /// number from memory): the time, as an angle, an outgoing thyristor has
+    /// to recover before its voltage turns forward.  None unless the bridge
+    /// is controlled, returns power (DC power below zero) and commutates.
+    pub extinction_deg: Option<f64>,
     /// DC voltage harmonics (order referred to the supply frequency; the
     /// percent column is of the DC average).
     pub v_harmonics: Vec<HarmonicRow>,
@@ -101,6 +108,13 @@ pub struct DeviceRating {
     pub conduction_loss_w: f64,
     /// True when the device is set open (a fault).
     pub open: bool,
+    /// The device never stops conducting: its current stays above 0.1 % of
+    /// its peak over the whole period.  In a line-commutated bridge each
+    /// device conducts for at most 120 degrees plus the overlap (a
+    /// three-pulse one likewise), so this means the bridge short-circuits
+    /// its DC side: a commutation failure, or more DC current than the
+    /// source inductance lets it commutate.
+    pub conducts_whole_period: bool,
 }
 
 /// Capacitor ripple and life.
@@ -128,8 +142,10 @@ pub struct Comparison {
     pub unit: String,
     pub textbook: f64,
     pub exact: f64,
-    /// (exact - textbook) / |textbook| in percent.
-    pub diff_pct: f64,
+    /// (exact - textbook) / |textbook| in percent; None when the textbook
+    /// value is zero (or within 1e-9 of the exact one's size), where a
+    /// percentage says nothing.
+    pub diff_pct: Option<f64>,
     pub assumption: String,
 }
 
@@ -350,6 +366,7 @@ pub(crate) fn device_ratings(s: &Scenario, sim: &SimResult) -> (Vec<DeviceRating
             },
             conduction_loss_w: v_th * i_avg + r_on * i_rms * i_rms,
             open,
+            conducts_whole_period: !open && ci.max > 0.0 && ci.min > 1e-3 * ci.max,
         });
     }
     let worst_v = devices
@@ -402,7 +419,7 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
     } else {
         "discontinuous"
     };
-    let dc = DcFigures {
+    let mut dc = DcFigures {
         v_avg_v: v.mean,
         v_rms_v: v.rms,
         v_min_v: v.min,
@@ -419,12 +436,18 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
         i_rms_a: i.rms,
         conduction: conduction.into(),
         overlap_deg: overlap_deg(sim),
+        extinction_deg: None,
         v_harmonics: rows_of_dc(&v.harmonics, v.mean),
         p_load_w: sim.p_load_w,
     };
 
     // Devices.
     let (devices, worst_v) = device_ratings(s, sim);
+    let shorted = devices.iter().any(|d| d.conducts_whole_period);
+    if s.bridge.kind.is_controlled() && sim.p_load_w < 0.0 && !shorted {
+        let mu = dc.overlap_deg.unwrap_or(0.0);
+        dc.extinction_deg = Some(180.0 - s.bridge.alpha_deg - mu);
+    }
     let peak_line = SQRT_2
         * s.supply.v_ll_rms_v
         * s.supply
@@ -578,10 +601,10 @@ fn cmp(q: &str, unit: &str, tb: f64, ex: f64, assumption: &str) -> Comparison {
         unit: unit.into(),
         textbook: tb,
         exact: ex,
-        diff_pct: if tb.abs() > 0.0 {
-            100.0 * (ex - tb) / tb.abs()
+        diff_pct: if tb.abs() > 1e-9 * ex.abs().max(1e-300) && tb.abs() > 0.0 {
+            Some(100.0 * (ex - tb) / tb.abs())
         } else {
-            0.0
+            None
         },
         assumption: assumption.into(),
     }

@@ -173,6 +173,66 @@ fn inverting_thyristor_bridge_returns_power() {
         "power returns to the supply: {}",
         r.total.p_w
     );
+    // Extinction angle gamma = 180 - alpha - mu (Mohan 3rd ed., inverter
+    // mode), with mu from the overlap equation cos(alpha + mu) = cos(alpha)
+    // - 2 w Ls Id / (sqrt2 V_LL) at the simulated Id.
+    let mu = ((140f64.to_radians()).cos() - 2.0 * w * 0.3e-3 * id / (SQRT_2 * 440.0))
+        .acos()
+        .to_degrees()
+        - 140.0;
+    let gamma =
+        r.dc.extinction_deg
+            .expect("an inverting bridge has an extinction angle");
+    assert!(
+        (gamma - (40.0 - mu)).abs() < 0.3,
+        "gamma {gamma} vs {}",
+        40.0 - mu
+    );
+    assert!(r.ratings.devices.iter().all(|d| !d.conducts_whole_period));
+    assert!(
+        !a.warnings.iter().any(|w| w.contains("never stop")),
+        "{:?}",
+        a.warnings
+    );
+}
+
+#[test]
+fn an_inverter_past_its_commutation_limit_is_flagged() {
+    // The same bridge fired at 160 deg into a stiffer back-EMF through 2 mH.
+    // Mohan 3rd ed. (overlap in inverter mode): the operating point the
+    // closed forms give, Id from Vdo cos(alpha) - 3 w Ls Id / pi = E + R Id,
+    // needs cos(alpha + mu) = cos(alpha) - 2 w Ls Id / (sqrt2 V_LL) < -1: no
+    // overlap angle commutates that current, so the outgoing thyristor is
+    // never turned off and the bridge short-circuits the DC source.
+    let mut s = ideal(BridgeKind::SixPulseThyristor, 160.0);
+    let (l_s, r_dc, e) = (2e-3, 0.05, -600.0);
+    s.source.impedance = SourceImpedance::Direct {
+        r_ohm: 0.0,
+        l_h: l_s,
+    };
+    s.dc.load = DcLoad::Rle {
+        r_ohm: r_dc,
+        l_h: 0.05,
+        e_v: e,
+    };
+    let w = 2.0 * PI * 50.0;
+    let vdo = 3.0 * SQRT_2 / PI * 440.0;
+    let a_rad = 160f64.to_radians();
+    let id_tb = (vdo * a_rad.cos() - e) / (r_dc + 3.0 * w * l_s / PI);
+    let rhs = a_rad.cos() - 2.0 * w * l_s * id_tb / (SQRT_2 * 440.0);
+    assert!(
+        id_tb > 0.0 && rhs < -1.0,
+        "Id {id_tb}, cos(alpha + mu) = {rhs}"
+    );
+    let a = analyze(&s).unwrap();
+    let r = a.results.as_ref().unwrap();
+    assert!(r.ratings.devices.iter().any(|d| d.conducts_whole_period));
+    assert!(r.dc.extinction_deg.is_none());
+    assert!(
+        a.warnings.iter().any(|w| w.contains("commutation failure")),
+        "{:?}",
+        a.warnings
+    );
 }
 
 #[test]

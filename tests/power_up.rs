@@ -117,3 +117,41 @@ fn inverter_held_off_until_the_bypass_closes() {
         "bus {end} V at the end against the steady mean {v_mean} V"
     );
 }
+
+/// The power-up's peaks apart: through the precharge resistor, after the
+/// bypass, and the bus voltage.  Bounds (common practice, first-order): at
+/// switch-on the discharged bus is a short behind the resistor, so the
+/// resistor's current peaks near, and not above, the line-to-line peak over
+/// its resistance, `sqrt2 V_LL / R` (less the source's drop and the charge
+/// already taken); the whole-window peak is the larger of the two parts.
+#[test]
+fn power_up_peaks_are_given_apart_and_bounded() {
+    let s = with_precharge(0.5, 0.0);
+    let a = analyze(&s).expect("valid");
+    let tr = a.sim.expect("simulated").transient.expect("transient");
+    let r_peak = tr.precharge_peak_a.expect("a precharge resistor is fitted");
+    let bound = 2f64.sqrt() * s.supply.v_ll_rms_v / s.dc.precharge_r_ohm;
+    assert!(
+        r_peak <= bound && r_peak > 0.85 * bound,
+        "precharge peak {r_peak} A against sqrt2 V / R = {bound} A"
+    );
+    let surge = tr.bypass_surge_a.expect("the bypass closed");
+    assert!((tr.inrush_peak_a - r_peak.max(surge)).abs() <= 1e-9 * tr.inrush_peak_a);
+    // The bus never goes below zero and its peak is on the trace.
+    assert!(tr.v_dc.iter().all(|v| *v >= -1e-6 * tr.v_dc_peak_v));
+    assert!(tr.v_dc.contains(&tr.v_dc_peak_v));
+}
+
+/// With neither a bypass time nor a level the bypass never closes: said.
+#[test]
+fn a_bypass_without_a_rule_is_warned() {
+    let s = with_precharge(0.0, 0.0);
+    let a = analyze(&s).expect("valid");
+    assert!(
+        a.warnings.iter().any(|w| w.contains("never closes")),
+        "{:?}",
+        a.warnings
+    );
+    let tr = a.sim.expect("simulated").transient.expect("transient");
+    assert!(tr.bypass_at_s.is_none() && tr.bypass_surge_a.is_none());
+}

@@ -659,6 +659,7 @@
             ["RMS current", "results.dc.i_rms_a", "A"],
             ["Conduction", "results.dc.conduction", ""],
             ["Overlap angle μ", "results.dc.overlap_deg", "°"],
+            ["Extinction angle γ = 180° − α − μ (inverting)", "results.dc.extinction_deg", "°"],
             ["Load power", "results.dc.p_load_w", "kW", 1e-3],
             ["Power balance error", "results.power_balance_error", ""],
           ],
@@ -1234,7 +1235,10 @@
     figs.appendChild(
       table(
         [
-          ["Inrush peak", "sim.transient.inrush_peak_a", "A"],
+          ["Peak line current, whole power-up", "sim.transient.inrush_peak_a", "A"],
+          ["… through the precharge resistor", "sim.transient.precharge_peak_a", "A"],
+          ["… after the bypass closed", "sim.transient.bypass_surge_a", "A"],
+          ["Highest bus voltage", "sim.transient.v_dc_peak_v", "V"],
           ["Bus charge time", "sim.transient.charge_time_s", "ms", 1e3],
           ["Precharge bypass at", "sim.transient.bypass_at_s", "ms", 1e3],
         ],

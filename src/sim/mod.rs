@@ -108,6 +108,19 @@ pub struct Transient {
     /// bypass closed; otherwise any load was on from the start.
     #[serde(default)]
     pub inverter_held_off: bool,
+    /// Largest line-current magnitude on the grid while the precharge
+    /// resistor was in circuit (before the bypass closed), A: the figure
+    /// for sizing the resistor.  None without a precharge resistor.
+    #[serde(default)]
+    pub precharge_peak_a: Option<f64>,
+    /// Largest line-current magnitude on the grid after the bypass closed,
+    /// A: the surge for sizing the bypass contactor and the fuses.
+    #[serde(default)]
+    pub bypass_surge_a: Option<f64>,
+    /// Highest bus voltage on the grid during the power-up, V (an overshoot
+    /// above the steady bus loads the capacitors and the overvoltage trip).
+    #[serde(default)]
+    pub v_dc_peak_v: f64,
 }
 
 /// Simulation results.
@@ -1919,6 +1932,54 @@ fn power_up(
             "the bus did not reach 90 % of its steady value within the power-up window".into(),
         );
     }
+    // Peaks on the grid before and after the bypass closed.
+    let i_mag = |k: usize| ia[k].abs().max(ib[k].abs()).max(ic[k].abs());
+    let split = bypass_at_s.unwrap_or(f64::INFINITY);
+    let (mut before, mut after) = (0.0f64, None::<f64>);
+    for (k, &t) in t_s.iter().enumerate() {
+        if t < split {
+            before = before.max(i_mag(k));
+        } else {
+            after = Some(after.unwrap_or(0.0).max(i_mag(k)));
+        }
+    }
+    let v_dc_peak_v = v_dc.iter().cloned().fold(0.0, f64::max);
+    if let Some(rl) = &rule {
+        if rl.at_s.is_infinite() && rl.level_v.is_infinite() {
+            warnings.push("precharge: neither a bypass time nor a bus level is set, so the bypass never closes in the power-up; the steady-state figures assume it closed".into());
+        } else if bypass_at_s.is_none() {
+            warnings.push(format!(
+                "precharge: the bypass did not close within the power-up window (the bus reached {:.1} V{}); the steady-state figures assume it closed",
+                v_dc_peak_v,
+                if rl.level_v.is_finite() {
+                    format!(", below the {:.1} V set", rl.level_v)
+                } else {
+                    String::new()
+                }
+            ));
+        }
+    }
+    let line_peak = 2f64.sqrt()
+        * s.supply.v_ll_rms_v
+        * s.supply
+            .phase_magnitude_pu
+            .iter()
+            .cloned()
+            .fold(0.0, f64::max);
+    if line_peak > 0.0 && v_dc_peak_v > 1.1 * line_peak {
+        let at = t_s
+            .iter()
+            .zip(&v_dc)
+            .find(|(_, v)| **v >= v_dc_peak_v)
+            .map(|(t, _)| *t)
+            .unwrap_or(0.0);
+        warnings.push(format!(
+            "power-up overshoot: the bus peaks at {:.1} V ({:.2} x the line-to-line peak) at {:.1} ms; check the capacitors' voltage rating and the overvoltage trip",
+            v_dc_peak_v,
+            v_dc_peak_v / line_peak,
+            at * 1e3
+        ));
+    }
     Ok(Transient {
         t_s,
         v_dc,
@@ -1929,6 +1990,9 @@ fn power_up(
         charge_time_s: charge,
         bypass_at_s,
         inverter_held_off: eng_off.is_some(),
+        precharge_peak_a: rule.as_ref().map(|_| before),
+        bypass_surge_a: if rule.is_some() { after } else { None },
+        v_dc_peak_v,
     })
 }
 
