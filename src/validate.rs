@@ -784,6 +784,19 @@ pub fn validate(s: &Scenario) -> Result<Vec<String>, FieldError> {
         if k > 0.0 {
             let p_max = v * v / (4.0 * k);
             if *p_w > p_max {
+                // With a failed bypass the resistor left in circuit is the
+                // cause: name it, not the load.
+                if dc.precharge_stuck && dc.precharge_r_ohm > 0.0 {
+                    return Err(fe(
+                        "dc.precharge_stuck",
+                        format!(
+                            "with the bypass failed, the {} Ohm precharge resistor stays in circuit and lets through at most about {} W; the {} W load would collapse the bus (that is what a drive with a failed bypass does: it trips on undervoltage or burns the resistor)",
+                            fmt(dc.precharge_r_ohm),
+                            fmt(p_max),
+                            fmt(*p_w)
+                        ),
+                    ));
+                }
                 return Err(fe(
                     "dc.load.p_w",
                     format!(
@@ -974,5 +987,20 @@ mod tests {
         s.dc.load = DcLoad::ConstantPower { p_w: 1e9 };
         s.analysis.rated_power_w = 45e3;
         assert_eq!(validate(&s).unwrap_err().field, "dc.load.p_w");
+    }
+
+    #[test]
+    fn a_failed_bypass_that_starves_the_load_names_the_bypass() {
+        // 45 kW through a 10 Ohm resistor left in circuit: the resistor
+        // alone passes at most V^2 / (4 R) = 540^2 / 40, about 7.3 kW.
+        let mut s = Scenario::default();
+        s.dc.precharge_r_ohm = 10.0;
+        s.dc.precharge_bypass_s = 0.1;
+        s.dc.precharge_stuck = true;
+        let e = validate(&s).unwrap_err();
+        assert_eq!(e.field, "dc.precharge_stuck", "{e}");
+        assert!(e.reason.contains("10 Ohm"), "{}", e.reason);
+        s.dc.precharge_stuck = false;
+        assert!(validate(&s).is_ok());
     }
 }

@@ -546,8 +546,19 @@
         })
         .sort((a, b) => (b.getAttribute("data-path") || "").length - (a.getAttribute("data-path") || "").length)[0];
     }
-    if (target) markInvalid(target, reason);
+    if (target) markInvalid(target, inFieldUnits(reason, specOf(target)));
     else $("#input-error").textContent = msg;
+  }
+
+  // The engine states the value it refused in SI ("-0.001 is out of range");
+  // beside a field shown in mH, kW or µF say it as typed ("-1 mH is out of
+  // range").  The range that follows keeps the engine's own units.
+  function inFieldUnits(reason, spec) {
+    if (!spec || !spec.scale || spec.scale === 1 || !spec.unit) return reason;
+    const m = /^(-?\d+(?:\.\d+)?(?:e[-+]?\d+)?)(\s+[A-Za-z]+)?(?= is )/.exec(reason);
+    if (!m) return reason;
+    const typed = Number(m[1]) / spec.scale;
+    return fmt(typed) + " " + spec.unit + reason.slice(m[0].length);
   }
 
   // ------------------------------------------------------------ results: tables

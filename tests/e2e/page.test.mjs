@@ -194,6 +194,16 @@ for (const b of BROWSERS) {
       await waitRecomputed(n);
       assert.ok(close(await num("textbook.vdo_v"), K6 * 480, 1e-4));
       assert.equal(await page.$eval("#stale-note", (e) => e.hidden), true);
+      // The refused value is said in the field's unit (mH), not the engine's H.
+      await page.$eval("#choke_l_h", (e) => {
+        const d = e.closest("details");
+        if (d) d.open = true;
+      });
+      await typeInto("choke_l_h", "-1");
+      await page.waitForFunction(() => /out of range/.test(document.querySelector("#choke_l_h-msg").textContent));
+      assert.match(await page.$eval("#choke_l_h-msg", (e) => e.textContent), /^-1 mH is out of range/);
+      const m = await typeInto("choke_l_h", "0");
+      await waitRecomputed(m);
     });
 
     test("thyristor bridge: Vdo cos(alpha) follows the firing angle", async () => {
