@@ -221,6 +221,10 @@ pub struct PulseAllowance {
     pub orders: Vec<u32>,
     /// Whether the non-characteristic harmonics are within 25 % of their limits.
     pub condition_met: bool,
+    /// The non-characteristic orders above 25 % of their limits (the ones
+    /// that keep the allowance from applying), ascending; empty when met.
+    #[serde(default)]
+    pub blocking_orders: Vec<u32>,
     pub applied: bool,
     pub wording: String,
 }
@@ -565,14 +569,17 @@ pub fn ieee519_current_checks(
     };
     let allowance = if q > 6 {
         let m = (q as f64 / 6.0).sqrt();
-        let condition_met = (2..=h_top)
+        let blocking_orders: Vec<u32> = (2..=h_top)
             .filter(|&h| !is_characteristic(h, q))
-            .all(|h| worst(h).0 <= IEEE519_EVEN_FRACTION * ieee519_limit(r, h, None));
+            .filter(|&h| worst(h).0 > IEEE519_EVEN_FRACTION * ieee519_limit(r, h, None))
+            .collect();
+        let condition_met = blocking_orders.is_empty();
         Some(PulseAllowance {
             pulse_number: q,
             multiplier: m,
             orders: (2..=50).filter(|&h| is_characteristic(h, q)).collect(),
             condition_met,
+            blocking_orders,
             applied: condition_met,
             wording: PULSE_ALLOWANCE_WORDING.into(),
         })

@@ -356,16 +356,24 @@ fn compliance(o: &mut String, c: &crate::compliance::Compliance) {
         }
     };
     if let Some(p) = &ie.pulse_allowance {
+        let why = if p.applied {
+            String::new()
+        } else if p.blocking_orders.is_empty() {
+            " (non-characteristic harmonics above 25 % of their limits)".to_string()
+        } else {
+            let hs: Vec<String> = p.blocking_orders.iter().map(|h| format!("h{h}")).collect();
+            format!(
+                " (non-characteristic harmonics above 25 % of their limits: {})",
+                hs.join(", ")
+            )
+        };
         let _ = writeln!(
             o,
-            "  pulse number {}: characteristic limits x {:.3} {}",
+            "  pulse number {}: characteristic limits x {:.3} {}{}",
             p.pulse_number,
             p.multiplier,
-            if p.applied {
-                "applied"
-            } else {
-                "not applied (non-characteristic harmonics above 25 % of their limits)"
-            }
+            if p.applied { "applied" } else { "not applied" },
+            why
         );
     }
     let _ = writeln!(

@@ -146,15 +146,27 @@ fn ieee519_pulse_allowance_sqrt_q_over_6() {
     let (c, _, a) = ieee519_current_checks(&sp, 50_000.0, 100.0, 480.0, 12, 1);
     let a = a.unwrap();
     assert!(a.condition_met && a.applied);
+    assert!(a.blocking_orders.is_empty());
     assert!(close(a.multiplier, 2f64.sqrt(), 1e-12));
     assert!(by_name(&c, "h11").pass);
     // A 5th of 3.5 % (above 3 %) loses the allowance: the 11th then fails.
     s[5] = 3.5;
     let sp = vec![s.clone(), s.clone(), s];
     let (c, _, a) = ieee519_current_checks(&sp, 50_000.0, 100.0, 480.0, 12, 1);
-    assert!(!a.unwrap().applied);
+    let a = a.unwrap();
+    assert!(!a.applied);
+    // The 5th is the order that blocks it; the 11th (characteristic, 7 %)
+    // is not counted whatever its value.
+    assert_eq!(a.blocking_orders, vec![5]);
     assert!(!by_name(&c, "h11").pass);
     assert_eq!(by_name(&c, "h11").limit, 5.5);
+    // Add a 2nd of 1 %: its limit is 25 % of 12 = 3 % (even rule), a quarter
+    // of that 0.75 %, so it blocks too; the list is ascending.
+    let mut s2 = sp[0].clone();
+    s2[2] = 1.0;
+    let (_, _, a) =
+        ieee519_current_checks(&[s2.clone(), s2.clone(), s2], 50_000.0, 100.0, 480.0, 12, 1);
+    assert_eq!(a.unwrap().blocking_orders, vec![2, 5]);
     // Six-pulse: no allowance at all.
     let (_, _, a) = ieee519_current_checks(&[vec![0.0; 51]], 5e4, 100.0, 480.0, 6, 1);
     assert!(a.is_none());

@@ -629,6 +629,27 @@
     return s;
   }
 
+  // IEEE 519's pulse-number allowance: whether the characteristic limits are
+  // raised, and if not, the non-characteristic orders above a quarter of
+  // their limits that keep it off (the engine lists them).
+  function pulseAllowanceLine(i) {
+    const pa = i.pulse_allowance;
+    const orders = pa.orders.filter((h) => i.current.some((k) => k.order === h));
+    const head = `Pulse number ${pa.pulse_number}: limits of the characteristic orders (${orders.map((h) => "h" + h).join(", ")}) × ${fmt(pa.multiplier, 4)}`;
+    let text;
+    if (pa.applied) {
+      text = `${head}: applied (every non-characteristic order is within 25 % of its limit).`;
+    } else {
+      const byOrder = new Map(i.current.filter((k) => typeof k.order === "number").map((k) => [k.order, k]));
+      const blocking = (pa.blocking_orders || []).map((h) => {
+        const k = byOrder.get(h);
+        return k ? `h${h} ${fmt(k.value, 3)} % of IL > ${fmt(0.25 * k.limit, 3)} % (25 % of ${fmt(k.limit, 3)} %)` : `h${h}`;
+      });
+      text = `${head}: not applied, because ${blocking.length ? "these non-characteristic orders exceed 25 % of their limits: " + blocking.join("; ") : "non-characteristic orders exceed 25 % of their limits"}. The table's limits are the unraised ones.`;
+    }
+    return el("p", { class: "note strong", "data-out": "compliance.ieee519.pulse_allowance", "data-applied": String(pa.applied) }, text);
+  }
+
   function checksTable(checks, path) {
     return grid(
       checks,
@@ -825,11 +846,12 @@
             a
           )
         );
+        if (i.pulse_allowance) d.appendChild(pulseAllowanceLine(i));
         const interesting = (list_) => list_.filter((k) => !k.pass || k.order === null || k.order === undefined || k.value >= 0.1 * k.limit);
         d.appendChild(checksTable(interesting(i.current), "compliance.ieee519.current"));
         d.appendChild(el("p", { class: "note" }, "Harmonics below a tenth of their limit (and passing) are left out of this table; the spectrum plot shows them all."));
         d.appendChild(checksTable(interesting(i.voltage), "compliance.ieee519.voltage"));
-        d.appendChild(list(i.notes.concat([i.row_convention, i.voltage_method]), "notes"));
+        d.appendChild(list(i.notes.concat([i.row_convention, i.voltage_method], i.pulse_allowance ? [i.pulse_allowance.wording] : []), "notes"));
         const e = c.iec61000_3_12;
         d.appendChild(el("h3", null, e.edition));
         const q = el("p");
@@ -944,6 +966,12 @@
     if (!r) return null;
     const devs = (r.ratings && r.ratings.devices) || [];
     const worstLine = r.line_currents.reduce((m, p) => (p.rms_a > m.rms_a ? p : m), r.line_currents[0] || { rms_a: NaN, phase: "?" });
+    // The phases the worst THD and TDD belong to (either may differ from the
+    // phase with the largest RMS current).
+    const phaseOfMax = (key, value) => {
+      const p = r.line_currents.find((c) => c[key] === value);
+      return p ? p.phase : "?";
+    };
     return {
       v_dc_avg_v: r.dc.v_avg_v,
       ripple_pp_v: r.dc.ripple_pp_v,
@@ -951,7 +979,9 @@
       i_line_rms_a: worstLine.rms_a,
       i_line_phase: worstLine.phase,
       thd_max_pct: r.thd_max_pct,
+      thd_phase: phaseOfMax("thd_pct", r.thd_max_pct),
       tdd_max_pct: r.tdd_max_pct,
+      tdd_phase: phaseOfMax("tdd_pct", r.tdd_max_pct),
       power_factor: r.total ? r.total.power_factor : NaN,
       displacement_factor: r.total ? r.total.displacement_factor : NaN,
       device_v_peak_v: r.ratings ? r.ratings.worst_device_voltage_v : NaN,
@@ -982,7 +1012,7 @@
     tile("DC bus, average", "v_dc_avg_v", g.v_dc_avg_v, "V");
     tile("DC ripple, peak to peak", "ripple_pp_v", g.ripple_pp_v, "V", fmt(g.ripple_hz, 4) + " Hz dominant");
     tile("Line current, RMS", "i_line_rms_a", g.i_line_rms_a, "A", "worst phase: " + g.i_line_phase);
-    tile("THD of line current", "thd_max_pct", g.thd_max_pct, "%", "TDD " + fmt(g.tdd_max_pct, 3) + " %");
+    tile("THD of line current", "thd_max_pct", g.thd_max_pct, "%", `phase ${g.thd_phase}; TDD ${fmt(g.tdd_max_pct, 3)} % (phase ${g.tdd_phase})`);
     tile("Power factor", "power_factor", g.power_factor, "", "displacement " + fmt(g.displacement_factor, 3));
     tile("Worst device voltage", "device_v_peak_v", g.device_v_peak_v, "V", "peak current " + fmt(g.device_i_peak_a, 4) + " A; class " + fmt(g.voltage_class_v) + " V suggested");
     if (g.verdict) {

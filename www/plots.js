@@ -44,6 +44,16 @@
   function create(host, spec) {
     host.replaceChildren();
     host.classList.add("plot");
+    // The plot's own title, shown in print only (on screen the tab names it):
+    // first in its tab panel, above any figures that go with the plot.
+    const panel = host.closest(".tabpanel") || host.parentNode;
+    if (panel) {
+      for (const old of panel.querySelectorAll(":scope > .plot-title")) old.remove();
+      const h = document.createElement("h3");
+      h.className = "plot-title print-only";
+      h.textContent = spec.title || "";
+      panel.prepend(h);
+    }
     const ink = css("--ink", "#141414");
     const grid = css("--grid", "#d9d6cc");
     const fmt = (v, unit, sig) => U().formatEng(v, unit, sig);

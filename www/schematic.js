@@ -78,11 +78,13 @@
     // ---- source: three EMFs joined at a star point
     const xs = 50;
     wire(`M${xs - 22} ${rows[0]} L${xs - 22} ${rows[2]}`);
-    label(xs - 22, rows[2] + 24, "N", "lbl small");
+    // left of the star point when the neutral return runs down from it (three-pulse)
+    if (three) label(xs - 28, rows[2] + 24, "N", "lbl small", "end");
+    else label(xs - 22, rows[2] + 24, "N", "lbl small");
     rows.forEach((y, i) => {
       wire(`M${xs - 22} ${y} L${xs - 12} ${y}`);
       add("circle", { cx: xs, cy: y, r: 12, class: "src" });
-      add("path", { d: `M${xs - 7} ${y} q3.5 -7 7 0 t7 0`, class: "w thin" });
+      add("path", { d: `M${xs - 7} ${y} q3.5 -7 7 0 t7 0`, class: "w thin mark" }); // the sine symbol, not a wire
       label(xs, y - 17, names[i], "lbl small");
     });
     label(xs - 30, 62, `${eng(s.supply.v_ll_rms_v, "V")} ${eng(s.supply.f_hz, "Hz")}`, "lbl strong", "start");
@@ -143,20 +145,23 @@
       label(360, 115, "Y", "lbl strong");
       label(360, 215, "Δ", "lbl strong");
       label(352, 262, "30° apart", "lbl small");
+      // Bridge 1's + rail and bridge 2's - rail are the DC rails (y = top,
+      // bot); the secondaries' leads come in between the device labels.
       const bridges = [
-        { y0: 40, y1: 140, feed: 110, tag: "1" },
-        { y0: 180, y1: 280, feed: 210, tag: "2" },
+        { y0: top, y1: 140, feed: 110, tag: "1" },
+        { y0: 190, y1: bot, feed: 210, tag: "2" },
       ];
       const legs = [450, 510, 570];
+      const xR = 600; // right end of the rails that stay inside the bridge block
+      const series = kind === "twelve_pulse_series";
+      xOut = series ? 620 : 680;
       bridges.forEach((b, bi) => {
-        wire(`M380 ${b.feed} L420 ${b.feed}`);
-        add("path", { d: `M396 ${b.feed - 7} l8 14 M402 ${b.feed - 7} l8 14 M408 ${b.feed - 7} l8 14`, class: "w thin" }); // three conductors
-        wire(`M420 ${b.feed} L420 ${(b.y0 + b.y1) / 2} L${legs[2]} ${(b.y0 + b.y1) / 2}`, "w thin");
-        wire(`M${legs[0]} ${b.y0} L${legs[2] + 40} ${b.y0}`);
-        wire(`M${legs[0]} ${b.y1} L${legs[2] + 40} ${b.y1}`);
+        const mid = (b.y0 + b.y1) / 2;
+        // one line for the three conductors (marked), from the winding to the legs' midpoints
+        wire(`M380 ${b.feed} L396 ${b.feed} L396 ${mid} L${legs[2]} ${mid}`, "w thin");
+        add("path", { d: `M402 ${mid + 7} l8 -14 M408 ${mid + 7} l8 -14 M414 ${mid + 7} l8 -14`, class: "w thin mark" }); // three conductors
         legs.forEach((x, li) => {
           wire(`M${x} ${b.y0} L${x} ${b.y1}`);
-          const mid = (b.y0 + b.y1) / 2;
           add("circle", { cx: x, cy: mid, r: 2.5, class: "dot" });
           const up = bi * 6 + li;
           const dn = bi * 6 + 3 + li;
@@ -164,29 +169,38 @@
           device(x, b.y1 - 22, names[li] + b.tag + "−", false, openDev === dn);
         });
       });
-      if (kind === "twelve_pulse_series") {
-        // bridge 1 negative to bridge 2 positive
-        wire(`M580 140 L600 140 L600 180 L580 180`);
-        label(650, 164, "in series", "lbl small", "start");
-        wire(`M580 40 L640 40 L640 ${top}`);
-        wire(`M580 280 L640 280`);
-        xOut = 670;
+      // the - rail of bridge 2 is the DC - rail in both connections
+      wire(`M${legs[0]} ${bot} L${xOut} ${bot}`);
+      if (series) {
+        // bridge 1's + is the DC +; bridge 1's - joined to bridge 2's +
+        wire(`M${legs[0]} ${top} L${xOut} ${top}`);
+        wire(`M${legs[0]} 140 L${xR} 140 L${xR} 190 L${legs[0]} 190`);
+        label(xR - 8, 169, "in series", "lbl small", "end");
       } else {
-        // both outputs together, the positives through an interphase reactor
-        wire(`M580 40 L600 40 L600 70`);
-        wire(`M580 180 L620 180 L620 70`);
-        add("path", { d: "M600 70 a10 10 0 0 1 20 0", class: "w part" });
-        label(640, 60, "interphase", "lbl small");
-        wire(`M610 60 L610 ${top}`, "w thin");
-        wire(`M580 140 L600 140 L600 280`);
-        wire(`M580 280 L640 280`);
-        wire(`M610 ${top} L640 ${top}`);
-        xOut = 670;
+        // The positives meet at the interphase reactor's centre tap (the DC
+        // +), the negatives are joined: one half of the reactor on the top
+        // rail, the other coming up from bridge 2's + rail.
+        const xc = 660; // centre tap
+        wire(`M${legs[0]} ${top} L${xR} ${top}`);
+        coilH(xR, top, 4);
+        wire(`M${xR + 40} ${top} L${xOut} ${top}`);
+        wire(`M${xc} ${top} L${xc} ${top + 20}`);
+        let d = `M${xc} ${top + 20}`;
+        for (let i = 0; i < 4; i++) d += " a5 5 0 0 1 0 10";
+        wire(d, "w part");
+        add("circle", { cx: xc, cy: top, r: 3, class: "dot" });
+        label(xc - 10, top + 36, "interphase", "lbl small", "end");
+        if (s.bridge.interphase_l_h > 0) label(xc - 10, top + 50, eng(s.bridge.interphase_l_h, "H"), "lbl small", "end");
+        // bridge 1's - down to the - rail; bridge 2's + hops over it to the reactor
+        const xn = 630;
+        wire(`M${legs[0]} 140 L${xn} 140 L${xn} ${bot}`);
+        add("circle", { cx: xn, cy: bot, r: 3, class: "dot" });
+        wire(`M${legs[0]} 190 L${xn - 6} 190 a6 6 0 0 1 12 0 L${xc} 190 L${xc} ${top + 60}`);
       }
     } else if (three) {
       const legs = [xB + 20, xB + 80, xB + 140];
       rows.forEach((y, i) => {
-        wire(`M300 ${y} L${legs[i]} ${y} L${legs[i]} ${top + 40}`);
+        wire(`M300 ${y} L${legs[i]} ${y} L${legs[i]} ${top + 47}`); // to the anode (the triangle's base)
         device(legs[i], top + 40, names[i] + "+", thy, openDev === i);
         wire(`M${legs[i]} ${top + 33} L${legs[i]} ${top}`);
       });
@@ -233,7 +247,8 @@
     x += 20;
     if (dc.choke_l_h > 0) {
       coilH(x, top, 4);
-      label(x + 20, top - 12, `choke ${eng(dc.choke_l_h, "H")}`, "lbl small");
+      // above the precharge label when both are drawn (they would overlap)
+      label(x + 20, dc.precharge_r_ohm > 0 ? top - 26 : top - 12, `choke ${eng(dc.choke_l_h, "H")}`, "lbl small");
       x += 40;
     }
     wire(`M${x} ${top} L${x + 20} ${top}`);
@@ -294,7 +309,7 @@
     } else if (load.kind === "constant_current") {
       wire(`M${lx} ${top} L${lx} ${top + 100}`);
       add("circle", { cx: lx, cy: top + 115, r: 15, class: "src" });
-      add("path", { d: `M${lx} ${top + 125} L${lx} ${top + 105} m-5 6 l5 -6 l5 6`, class: "w thin" });
+      add("path", { d: `M${lx} ${top + 125} L${lx} ${top + 105} m-5 6 l5 -6 l5 6`, class: "w thin mark" }); // arrow symbol
       wire(`M${lx} ${top + 130} L${lx} ${bot}`);
       label(lx + 20, top + 119, eng(load.i_a, "A"), "lbl small", "start");
     } else {

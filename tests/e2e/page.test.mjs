@@ -557,6 +557,111 @@ for (const b of BROWSERS) {
       }
     });
 
+    // The schematic as drawn: every wire end must touch another conductor (a
+    // wire, a part, a device, a source or winding circle, the core), so that
+    // a rail stopping short of the load or an unjoined tap is found; and no
+    // wire may run through a text label.  Sampled from the SVG geometry.
+    const schematicFaults = () =>
+      page.$eval("#schematic svg", (svg) => {
+        const sel = "path.w:not(.mark):not(.fault-w), path.dev, path.plate, circle.src, circle.winding, rect.core, rect.load";
+        const els = [...svg.querySelectorAll(sel)];
+        const samples = els.map((e) => {
+          const out = [];
+          if (e.tagName === "circle") {
+            const [cx, cy, r] = ["cx", "cy", "r"].map((k) => Number(e.getAttribute(k)));
+            for (let k = 0; k < 180; k++) out.push([cx + r * Math.cos((k * Math.PI) / 90), cy + r * Math.sin((k * Math.PI) / 90)]);
+          } else if (e.tagName === "rect") {
+            const [x, y, w, h] = ["x", "y", "width", "height"].map((k) => Number(e.getAttribute(k)));
+            for (let t = 0; t <= w; t += 0.5) out.push([x + t, y], [x + t, y + h]);
+            for (let t = 0; t <= h; t += 0.5) out.push([x, y + t], [x + w, y + t]);
+          } else {
+            const len = e.getTotalLength();
+            for (let l = 0; l < len; l += 0.5) {
+              const q = e.getPointAtLength(l);
+              out.push([q.x, q.y]);
+            }
+            const q = e.getPointAtLength(len);
+            out.push([q.x, q.y]);
+          }
+          return out;
+        });
+        const faults = [];
+        els.forEach((e, i) => {
+          if (!e.matches("path.w")) return;
+          const ends = [samples[i][0], samples[i][samples[i].length - 1]];
+          for (const [x, y] of ends) {
+            const joined = samples.some((pts, j) => j !== i && pts.some(([u, v]) => Math.hypot(u - x, v - y) <= 1.5));
+            if (!joined) faults.push(`open wire end at (${x.toFixed(0)}, ${y.toFixed(0)})`);
+          }
+        });
+        for (const t of svg.querySelectorAll("text")) {
+          const b = t.getBBox();
+          const hit = samples.some((pts, j) => els[j].matches("path.w") && pts.some(([u, v]) => u > b.x + 1 && u < b.x + b.width - 1 && v > b.y + 2 && v < b.y + b.height - 2));
+          if (hit) faults.push(`a wire runs through the label "${t.textContent}"`);
+        }
+        return faults;
+      });
+
+    test("schematics: every bridge's circuit is closed and its labels are clear", async () => {
+      for (const id of ["twelve_pulse_supply", "electrolysis_twelve_pulse_parallel", "pumping_station_drive", "lab_supply_three_pulse_thyristor"]) {
+        const n = await computed();
+        await page.select("#examples", id);
+        await waitRecomputed(n);
+        assert.deepEqual(await schematicFaults(), [], `${id}: schematic`);
+        // the parallel drawing shows the interphase reactor's value
+        if (/parallel/.test(id)) assert.match(await page.$eval("#schematic", (e) => e.textContent), /interphase\s*4 mH/);
+        await shotOf("#out-schematic", `schematic-${id}`);
+      }
+    });
+
+    test("twelve-pulse: the IEEE 519 pulse-number allowance is stated, with the orders that block it", async () => {
+      let n = await computed();
+      await page.select("#examples", "twelve_pulse_supply");
+      await waitRecomputed(n);
+      const sel = '[data-out="compliance.ieee519.pulse_allowance"]';
+      assert.equal(await page.$eval(sel, (e) => e.getAttribute("data-applied")), "true");
+      assert.match(await out("compliance.ieee519.pulse_allowance"), /^Pulse number 12: .*h11, h13.* × 1\.414: applied/);
+      // Unequal phase magnitudes (1.02 / 1.00 / 0.98 pu) bring non-characteristic
+      // orders; IEEE 519 keeps the sqrt(q/6) multiplier only while each is under
+      // 25 % of its limit.  The orders named must be such orders, shown in the
+      // checks table with a value above a quarter of their limit.
+      n = await openCaseFile({
+        name: "12-pulse series, unequal phases",
+        supply: { v_ll_rms_v: 400, f_hz: 50, phase_magnitude_pu: [1.02, 1.0, 0.98] },
+        source: { impedance: { kind: "short_circuit_mva", s_sc_mva: 10, x_over_r: 8 }, reactor: { kind: "percent", z_pct: 3, x_over_r: 30 } },
+        bridge: { kind: "twelve_pulse_series" },
+        dc: { cap_f: 0, choke_l_h: 0.02, load: { kind: "resistor", r_ohm: 5 } },
+        analysis: { rated_power_w: 230000, grid_points: 4096 },
+      });
+      await waitRecomputed(n);
+      assert.equal(await page.$eval(sel, (e) => e.getAttribute("data-applied")), "false");
+      const text = await out("compliance.ieee519.pulse_allowance");
+      assert.match(text, /not applied, because these non-characteristic orders exceed 25 % of their limits: h\d+/);
+      const named = [...text.matchAll(/h(\d+) [\d.]+ % of IL/g)].map((m) => Number(m[1]));
+      assert.ok(named.length > 0, text);
+      const rows = await page.$$eval('[data-out="compliance.ieee519.current"] tbody tr', (trs) => trs.map((tr) => [...tr.cells].map((c) => c.textContent.trim())));
+      for (const h of named) {
+        assert.ok(h % 12 !== 1 && h % 12 !== 11, `h${h} is characteristic of 12 pulses`);
+        const row = rows.find((r) => r[0] === `h${h}`);
+        assert.ok(row, `h${h} in the checks table`);
+        // (shown to 4 digits: a rounding's room)
+        assert.ok(Number(row[1]) >= 0.25 * Number(row[2]) * (1 - 1e-3), `h${h}: ${row[1]} vs 25 % of ${row[2]}`);
+      }
+      // and no order left out: every non-characteristic row above a quarter of its limit is named
+      for (const r of rows) {
+        const h = Number(r[0].slice(1));
+        if (!/^h\d+$/.test(r[0]) || h % 12 === 1 || h % 12 === 11) continue;
+        if (Number(r[1]) > 0.25 * Number(r[2]) * (1 + 1e-3)) assert.ok(named.includes(h), `h${h} above a quarter of its limit but not named`);
+      }
+      // The THD tile names the phase of the THD shown, the one the per-phase table gives.
+      const lines = await page.$eval("#out-exact-line table.grid", (t) => [...t.tBodies[0].rows].map((tr) => [...tr.cells].map((c) => c.textContent.trim())));
+      const thdMax = lines.reduce((m, r) => (Number(r[3]) > Number(m[3]) ? r : m));
+      const tddMax = lines.reduce((m, r) => (Number(r[4]) > Number(m[4]) ? r : m));
+      const sub = await page.$eval('[data-out="glance.thd_max_pct"]', (e) => e.closest(".tile").querySelector(".tile-sub").textContent);
+      assert.equal(sub.match(/^phase (\w)/)[1], thdMax[0], `THD tile: ${sub}`);
+      assert.equal(sub.match(/\(phase (\w)\)$/)[1], tddMax[0], `THD tile: ${sub}`);
+    });
+
     test("plots: waveforms, spectrum with limits, power-up, sweep with cancel; CSV export", async () => {
       let n = await computed();
       await page.select("#examples", "pumping_station_drive");
@@ -810,6 +915,16 @@ for (const b of BROWSERS) {
         assert.match(await page.$eval(".print-head", (e) => e.textContent), /version \d+\.\d+\.\d+ · \d{4}-\d\d-\d\d/);
         assert.notEqual(await page.$eval("#out-inputs", (e) => getComputedStyle(e).display), "none");
         assert.ok((await page.$$eval("#print-inputs tr", (r) => r.length)) > 10, "inputs listed");
+        // Each plot drawn for print carries its own title, and no legend prints
+        // a read-out placeholder (no cursor on paper).
+        await page.evaluate(() => window.dispatchEvent(new Event("beforeprint")));
+        const titles = await page.$$eval(".tabpanel .plot-title", (h) => h.filter((e) => getComputedStyle(e).display !== "none").map((e) => e.textContent));
+        assert.ok(titles.includes("Waveforms (periodic steady state)") && titles.includes("Line-current spectrum"), `plot titles: ${titles}`);
+        assert.equal(new Set(titles).size, titles.length, `plot titles repeat: ${titles}`);
+        const legendText = await page.$$eval(".plot .u-legend", (ls) => ls.map((l) => l.innerText).join(" "));
+        assert.ok(legendText.length > 0, "legends printed");
+        assert.doesNotMatch(legendText, /\u2014/, "a legend prints a placeholder value");
+        await page.evaluate(() => window.dispatchEvent(new Event("afterprint")));
         assert.notEqual(await page.$eval("#safety", (e) => getComputedStyle(e).display), "none");
         await page.evaluate(() => window.scrollTo(0, 0));
         await shot("print");
