@@ -231,7 +231,7 @@
           fold: "Capacitor thermal data",
           id: "fold-thermal",
           fields: [
-            { id: "cap_rth_k_per_w", path: "dc.cap_rth_k_per_w", label: "Thermal resistance, core to ambient", unit: "K/W", base: "K/W" },
+            { id: "cap_rth_k_per_w", path: "dc.cap_rth_k_per_w", label: "Thermal resistance, core to ambient", unit: "K/W", base: "K/W", hint: "of the whole bank: one can's value over the number of cans in parallel" },
             { id: "cap_rated_life_h", path: "dc.cap_rated_life_h", label: "Rated life", unit: "h", base: "h" },
             { id: "cap_rated_temp_c", path: "dc.cap_rated_temp_c", label: "Rated temperature", unit: "°C", base: "°C" },
             { id: "ambient_c", path: "dc.ambient_c", label: "Ambient temperature", unit: "°C", base: "°C" },
