@@ -332,7 +332,7 @@ impl SignatureId {
             SignatureId::Unbalance2 => "The supply is somewhat unbalanced: a diode front end amplifies a small voltage unbalance into a large current imbalance. Measure the voltages at the supply board and look for single-phase loads or a poor joint.",
             SignatureId::Unbalance5 => "The supply is strongly unbalanced. Measure at the supply board, upstream, and check joints and tap settings; report it to whoever runs the supply.",
             SignatureId::HighSourceZ => "The bus sags more under load than the measured supply should allow: a loose or corroded joint, or an undersized or very long cable, between the meter point and the bridge. With the supply isolated, check the tightness of the terminations; under load, compare the voltage at the supply board with the drive's terminals (a weak feed upstream of the meter shows as a terminal voltage that sags under load, and the bus then agrees with it).",
-            SignatureId::PrechargeNotBypassed => "The bus sags by the load current times the precharge resistor: the bypass (contactor or thyristor) does not close. Check the bypass and its control; the resistor may be overheating.",
+            SignatureId::PrechargeNotBypassed => "The bus sags by the load current times the precharge resistor: the bypass (contactor or thyristor) does not close, and the resistor, rated only for the short charging pulse, is carrying the load current. Stop the drive now; the resistor can overheat or burn and stays hot after stopping. Then, isolated and with the bus proven discharged, check the bypass and its control.",
         }
     }
 }
@@ -363,6 +363,11 @@ pub struct Predicted {
     pub ripple_rms_v: f64,
     /// Frequency of the largest ripple component, Hz.
     pub ripple_dominant_hz: f64,
+    /// Frequencies of the ripple components within 3 dB of the largest
+    /// (amplitude at least 1/sqrt2 of it), the largest first, Hz: a meter's
+    /// frequency counter on such a ripple may lock on any of them.
+    #[serde(default)]
+    pub ripple_near_dominant_hz: Vec<f64>,
     /// Lowest and highest bus voltage over a period, V.
     pub dc_min_v: f64,
     pub dc_max_v: f64,
@@ -387,17 +392,21 @@ pub struct Predicted {
 /// (a meter's frequency counter locking on the wrong component, say) cannot
 /// swamp the rest.  The residuals:
 ///
-/// * DC mean: `(m - p) / sigma`, `sigma^2 = tol_dc(m)^2 + (p u_supply)^2 +
-///   (p 0.01)^2`, where `tol_dc` is the meter's DC tolerance, `u_supply` the
-///   relative uncertainty of the supply level and 1 % the model's own
-///   (load, source impedance, diode drops; an estimate).
+/// * DC mean: `(m - p) / sigma`, `sigma = tol_dc(m) + p u_supply + p 0.01`
+///   (the linear sum, the same as the band the report shows, so that a
+///   reading inside that band is within tolerance), where `tol_dc` is the
+///   meter's DC tolerance, `u_supply` the relative uncertainty of the supply
+///   level and 1 % the model's own (load, source impedance, diode drops; an
+///   estimate).
 /// * Ripple (AC range): `ln((m + a) / (p + a)) / sigma`, `a` = the meter's
 ///   count floor, `sigma^2 = (ac %)^2 + s_model^2`, `s_model` = 0.25 with a
 ///   known capacitance and 0.5 with an estimated one (the rule of thumb is good
 ///   to about a factor of two).  The logarithm because ripple spans orders of
 ///   magnitude between faults.
 /// * Ripple frequency: `ln(m / p) / 0.1` (a meter's counter on a distorted
-///   ripple is rough; 6f, 2f and f are a factor 2 to 6 apart).
+///   ripple is rough; 6f, 2f and f are a factor 2 to 6 apart), `p` the
+///   frequency of the ripple component within 3 dB of the largest that is
+///   nearest the reading (a counter may lock on any of them).
 /// * Current imbalance: `(m - p) / sigma`, in percentage points,
 ///   `sigma^2 = tol_clamp^2 + (3 + 0.2 p)^2` (the amplification of an
 ///   unbalance depends on the source impedance, which is rarely known).
@@ -648,8 +657,10 @@ fn plan(inp: &FieldInput, assumptions: &mut Vec<String>) -> Result<Plan, FieldEr
         assumptions.push("load: no present load given; the drive is assumed at its full rating (give load_kw or the line currents for a better check)".into());
         Target::Power(p * 1e3)
     } else if let Some(i) = rating_a {
-        assumptions.push("load: no present load given; the drive is assumed at its rated current (give load_kw or the line currents for a better check)".into());
-        Target::LineCurrent(i)
+        // The rated current is the drive's output (motor) current, not its
+        // line current: the load is the rating derived from it below.
+        assumptions.push("load: no present load given; the drive is assumed at its rating as derived from its rated (output) current (give load_kw or the line currents for a better check)".into());
+        Target::Power(3f64.sqrt() * v_nom * i * KW_PER_KVA)
     } else {
         return Err(err(
             "nameplate.rating_kw",
@@ -984,6 +995,14 @@ fn predicted(run: &Run, s: &Scenario, id: SignatureId) -> Predicted {
         .max_by(|a, b| a.rms.total_cmp(&b.rms))
         .map(|h| h.order as f64 * f)
         .unwrap_or(0.0);
+    let largest = v.harmonics.iter().map(|h| h.rms).fold(0.0, f64::max);
+    let mut near: Vec<(f64, f64)> = v
+        .harmonics
+        .iter()
+        .filter(|h| h.order > 0 && h.rms >= largest / SQRT_2 && largest > 0.0)
+        .map(|h| (h.rms, h.order as f64 * f))
+        .collect();
+    near.sort_by(|a, b| b.0.total_cmp(&a.0));
     let i = sim.roles.line_i.map(|k| sim.signals[k].rms);
     let pc = sim.roles.pcc_v;
     let mut ll = [0.0; 3];
@@ -1015,6 +1034,7 @@ fn predicted(run: &Run, s: &Scenario, id: SignatureId) -> Predicted {
         dc_mean_v: v.mean,
         ripple_rms_v: ripple,
         ripple_dominant_hz: dom,
+        ripple_near_dominant_hz: near.into_iter().map(|x| x.1).collect(),
         dc_min_v: v.min,
         dc_max_v: v.max,
         line_i_rms_a: i,
@@ -1039,12 +1059,17 @@ fn term(reading: &str, m: f64, p: f64, sigma: f64, z: f64) -> Term {
 fn distance(inp: &FieldInput, p: &Plan, id: SignatureId, pr: &Predicted) -> Option<Distance> {
     let r = &inp.readings;
     let m = &inp.meter;
+    // A bank short of capacitance differs from a healthy one in its ripple;
+    // its few volts of mean shift are within the model's own uncertainty.
+    // Without a ripple reading it is not ranked (see `verdict`).
+    if needs_ripple(id) && r.dc_bus_ac_rms_v.is_none() && r.ripple_hz.is_none() {
+        return None;
+    }
     let mut terms = Vec::new();
     if let Some(vm) = r.dc_bus_mean_v {
-        let s = (m.dc_v.of(vm).powi(2)
-            + (pr.dc_mean_v * p.u_supply).powi(2)
-            + (pr.dc_mean_v * 0.01).powi(2))
-        .sqrt();
+        // The linear sum, as in the band the report shows ("a meter on DC
+        // may read"): a reading inside that band is within tolerance here.
+        let s = m.dc_v.of(vm) + pr.dc_mean_v * p.u_supply + pr.dc_mean_v * 0.01;
         terms.push(term(
             "DC bus mean, V",
             vm,
@@ -1067,12 +1092,26 @@ fn distance(inp: &FieldInput, p: &Plan, id: SignatureId, pr: &Predicted) -> Opti
     }
     if let Some(fm) = r.ripple_hz {
         let s = 0.1;
+        // The component within 3 dB of the largest nearest the counter's
+        // reading (an open diode's ripple has 50 and 100 Hz nearly equal).
+        let near_hz = pr
+            .ripple_near_dominant_hz
+            .iter()
+            .cloned()
+            .chain(std::iter::once(pr.ripple_dominant_hz))
+            .min_by(|a, b| {
+                (fm / a.max(1e-3))
+                    .ln()
+                    .abs()
+                    .total_cmp(&(fm / b.max(1e-3)).ln().abs())
+            })
+            .unwrap_or(pr.ripple_dominant_hz);
         terms.push(term(
             "ripple frequency, Hz",
             fm,
-            pr.ripple_dominant_hz,
+            near_hz,
             s,
-            (fm / pr.ripple_dominant_hz.max(1e-3)).ln() / s,
+            (fm / near_hz.max(1e-3)).ln() / s,
         ));
     }
     if let Some(i) = r.line_i_rms_a {
@@ -1111,6 +1150,11 @@ fn distance(inp: &FieldInput, p: &Plan, id: SignatureId, pr: &Predicted) -> Opti
     }
     let value = (terms.iter().map(|t| t.z * t.z).sum::<f64>() / terms.len() as f64).sqrt();
     Some(Distance { value, terms })
+}
+
+/// Signatures told apart from a healthy front end by the ripple only.
+fn needs_ripple(id: SignatureId) -> bool {
+    matches!(id, SignatureId::Cap50 | SignatureId::Cap20)
 }
 
 /// Run the field check.
@@ -1366,6 +1410,13 @@ fn verdict(sigs: &[Signature]) -> Verdict {
             "Not ranked because the drive could not run that way at this load (it would trip or overheat): {}.",
             failed.join("; ")
         ));
+    }
+    if sigs
+        .iter()
+        .any(|s| needs_ripple(s.id) && s.predicted.is_some() && s.distance.is_none())
+        && sigs.iter().any(|s| s.distance.is_some())
+    {
+        next.push("The capacitance signatures are not ranked: a bank short of capacitance shows in the ripple, so read the bus with the meter on AC (and its frequency) to check the capacitors.".into());
     }
     next.push("Before any hands-on check, follow the safety panel.".into());
     Verdict {

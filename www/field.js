@@ -308,8 +308,12 @@
     return Array.isArray(b) ? `band ${fmt(b[0], 0)} to ${fmt(b[1], 0)} V` : "";
   }
 
-  function distText(d) {
-    if (typeof d !== "number" || !Number.isFinite(d)) return "no fit (not computed)";
+  function distText(d, s) {
+    if (typeof d !== "number" || !Number.isFinite(d)) {
+      // Computed but not ranked: the capacitance signatures without a ripple reading.
+      if (s && s.predicted && !s.failed) return "not ranked (needs the bus read on AC)";
+      return "no fit (not computed)";
+    }
     return d.toFixed(2);
   }
 
@@ -372,7 +376,7 @@
     const head = el("div", { class: "fc-sig-head" });
     head.appendChild(el("span", { class: "fc-rank" }, String(rank)));
     head.appendChild(el("span", { class: "fc-sig-title" }, s.title));
-    head.appendChild(el("span", { class: "fc-dist", "data-fc": "distance" }, "distance " + distText(distance)));
+    head.appendChild(el("span", { class: "fc-dist", "data-fc": "distance" }, Number.isFinite(distance) ? "distance " + distText(distance) : distText(distance, s)));
     card.appendChild(head);
     if (s.failed) {
       card.appendChild(el("p", { class: "fc-sig-failed" }, "Not computed: " + s.failed));
@@ -507,8 +511,16 @@
     form.addEventListener("change", schedule);
     form.addEventListener("submit", (ev) => ev.preventDefault());
     $("#fc-reset").addEventListener("click", () => {
+      // A new drive: the last drive's figures and verdict go, not only grey.
+      lastReport = null;
+      for (const id of ["#fc-glance", "#fc-summary", "#fc-next", "#fc-signatures"]) {
+        const e = $(id);
+        if (e) e.textContent = "";
+      }
       fillForm(example, null);
       compute();
+      const first = document.querySelector("#fc-form [aria-invalid='true']");
+      if (first) first.scrollIntoView({ block: "center" });
     });
     $("#fc-clear-readings").addEventListener("click", () => {
       for (const f of GROUPS[0].fields) document.getElementById(f.id).value = "";
