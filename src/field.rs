@@ -209,9 +209,48 @@ pub struct FieldReport {
     /// Every signature, in the order of [`SignatureId`].
     pub signatures: Vec<Signature>,
     pub verdict: Verdict,
+    /// The bank's capacitance as the ripple reading puts it, when the best
+    /// fit is the healthy front end or a capacitance signature.
+    #[serde(default)]
+    pub bank_estimate: Option<BankEstimate>,
     /// Every value that was estimated or assumed, with its basis.
     pub assumptions: Vec<String>,
     pub warnings: Vec<String>,
+}
+
+/// The bank's capacitance from the ripple reading: interpolated, in
+/// logarithms, between the simulated ripples of the bank at 100 %, 50 % and
+/// 20 % (the healthy and the two capacitance signatures, each an exact
+/// steady state at the present load), so it carries their ESR ageing too.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct BankEstimate {
+    /// Percent of the bank as given (or as estimated, when not given).
+    pub pct_of_bank: f64,
+    /// The reading lies outside the simulated 20 to 100 % span (extrapolated).
+    pub extrapolated: bool,
+    pub note: String,
+}
+
+/// Interpolate `ln C` linearly in `ln ripple` through `pts` (fraction of
+/// the bank, ripple RMS), sorted by falling fraction with rising ripple;
+/// the end segments extend beyond the span.
+fn bank_fraction(pts: &[(f64, f64)], ripple: f64) -> Option<(f64, bool)> {
+    if pts.len() < 2
+        || ripple <= 0.0
+        || pts
+            .windows(2)
+            .any(|w| !(w[1].1 > w[0].1 && w[1].0 < w[0].0) || w[0].1 <= 0.0)
+    {
+        return None;
+    }
+    let k = (0..pts.len() - 1)
+        .find(|&k| ripple <= pts[k + 1].1)
+        .unwrap_or(pts.len() - 2);
+    let (a, b) = (pts[k], pts[k + 1]);
+    let t = (ripple.ln() - a.1.ln()) / (b.1.ln() - a.1.ln());
+    let frac = (a.0.ln() + t * (b.0.ln() - a.0.ln())).exp();
+    let extrapolated = ripple < pts[0].1 || ripple > pts[pts.len() - 1].1;
+    Some((frac, extrapolated))
 }
 
 /// What the bus should read.
@@ -1289,7 +1328,52 @@ pub fn check(inp: &FieldInput) -> Result<FieldReport, FieldError> {
         warnings.push("no bus reading entered: only the expected values are shown".into());
     }
 
-    let verdict = verdict(&signatures);
+    let mut verdict = verdict(&signatures);
+    // The bank from the ripple, when the readings point at the bank (not at
+    // a fault whose own ripple would be read as lost capacitance).
+    let lead = verdict
+        .ranking
+        .first()
+        .filter(|x| x.distance.is_some())
+        .map(|x| x.id);
+    let bank_estimate = match (r.dc_bus_ac_rms_v, lead) {
+        (Some(va), Some(SignatureId::Healthy | SignatureId::Cap50 | SignatureId::Cap20)) => {
+            let ripple_of = |id: SignatureId| {
+                signatures
+                    .iter()
+                    .find(|x| x.id == id)
+                    .and_then(|x| x.predicted.as_ref())
+                    .map(|pr| pr.ripple_rms_v)
+            };
+            let pts: Option<Vec<(f64, f64)>> = [
+                (1.0, SignatureId::Healthy),
+                (0.5, SignatureId::Cap50),
+                (0.2, SignatureId::Cap20),
+            ]
+            .iter()
+            .map(|&(f, id)| ripple_of(id).map(|r| (f, r)))
+            .collect();
+            pts.and_then(|pts| bank_fraction(&pts, va)).map(|(frac, extrapolated)| {
+                let pct = 100.0 * frac;
+                BankEstimate {
+                    pct_of_bank: pct,
+                    extrapolated,
+                    note: format!(
+                        "The {va:.1} V ripple reading puts the bank at about {pct:.0} % of the {} capacitance ({}interpolated between exact simulations of the bank at 100, 50 and 20 %, with their ESR; a ripple reading is good to about {}).",
+                        if p.cap_estimated { "estimated" } else { "given" },
+                        if extrapolated { "extrapolated beyond the simulated span; " } else { "" },
+                        if p.cap_estimated { "a factor of two, since the capacitance itself was estimated" } else { "20 to 30 %" }
+                    ),
+                }
+            })
+        }
+        _ => None,
+    };
+    if let Some(b) = &bank_estimate {
+        // Before the safety line, which stays last.
+        let at = verdict.next.len().saturating_sub(1);
+        verdict.next.insert(at, b.note.clone());
+    }
     Ok(FieldReport {
         version: env!("CARGO_PKG_VERSION").to_string(),
         safety: safety_text(),
@@ -1310,6 +1394,7 @@ pub fn check(inp: &FieldInput) -> Result<FieldReport, FieldError> {
         measured,
         signatures,
         verdict,
+        bank_estimate,
         assumptions,
         warnings,
     })
@@ -1582,6 +1667,23 @@ pub fn text(r: &FieldReport) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn bank_fraction_interpolates_in_logarithms() {
+        let pts = [(1.0, 5.0), (0.5, 10.0), (0.2, 25.0)];
+        let f = |r: f64| bank_fraction(&pts, r).unwrap();
+        assert!((f(10.0).0 - 0.5).abs() < 1e-12 && !f(10.0).1);
+        assert!((f(5.0).0 - 1.0).abs() < 1e-12);
+        // Ripple proportional to 1/C on the first segment: half the ripple
+        // of the 100 % bank is a bank twice the size, extrapolated.
+        let (x, extra) = f(2.5);
+        assert!((x - 2.0).abs() < 1e-12 && extra);
+        // Between 50 and 20 %: the geometric interpolation.
+        let r = (10.0f64 * 25.0).sqrt();
+        assert!((f(r).0 - (0.5f64 * 0.2).sqrt()).abs() < 1e-12);
+        // Not monotone: no estimate.
+        assert!(bank_fraction(&[(1.0, 5.0), (0.5, 4.0)], 4.5).is_none());
+    }
 
     #[test]
     fn unbalance_construction_hits_the_target() {

@@ -553,3 +553,42 @@ fn a_dc_reading_inside_the_shown_band_fits_and_does_not_blame_the_capacitors() {
         }
     }
 }
+
+/// The bank's capacitance from the ripple reading, against the engine as the
+/// oracle: readings made from an exact simulation of the same drive with its
+/// bank at 70 % (ESR scaled the way the field model ages a bank, `1/C` at a
+/// fixed tan delta) must be put at 70 % within 10 points.
+#[test]
+fn the_ripple_reading_puts_a_bank_at_70_percent_near_70_percent() {
+    let np = drive_400();
+    let mut s = healthy_scenario(&np).unwrap();
+    s.dc.load = DcLoad::ConstantCurrent { i_a: 9.0 };
+    s.dc.cap_f *= 0.7;
+    s.dc.cap_esr_ohm /= 0.7;
+    let d = derive(&s).unwrap();
+    let r = simulate(&s, &d).unwrap();
+    let inp = readings_from(&np, &r, s.supply.f_hz, 21);
+    let rep = check(&inp).unwrap();
+    let b = rep
+        .bank_estimate
+        .as_ref()
+        .unwrap_or_else(|| panic!("no estimate: {}", rep.verdict.summary));
+    assert!(
+        (b.pct_of_bank - 70.0).abs() <= 10.0,
+        "{} % ({})",
+        b.pct_of_bank,
+        b.note
+    );
+    assert!(!b.extrapolated);
+    // A healthy bank reads near 100 %.
+    let s = {
+        let mut s = healthy_scenario(&np).unwrap();
+        s.dc.load = DcLoad::ConstantCurrent { i_a: 9.0 };
+        s
+    };
+    let d = derive(&s).unwrap();
+    let r = simulate(&s, &d).unwrap();
+    let rep = check(&readings_from(&np, &r, s.supply.f_hz, 22)).unwrap();
+    let b = rep.bank_estimate.as_ref().unwrap();
+    assert!((b.pct_of_bank - 100.0).abs() <= 12.0, "{}", b.pct_of_bank);
+}
