@@ -147,6 +147,23 @@ fn readings_from(inp: &FieldInput, r: &SimResult, f_hz: f64, seed: u64) -> Field
 
 /// Make readings for a fault (applied to the healthy circuit by the test
 /// itself, not by the field module), run the check, return the ranking.
+/// The meter readings of the nameplate's drive at DC current `i_dc_a` with
+/// `fault` applied to its healthy scenario (an exact simulation, then meter
+/// noise from `seed`).
+fn fault_readings(
+    nameplate: &FieldInput,
+    i_dc_a: f64,
+    fault: impl Fn(&mut Scenario),
+    seed: u64,
+) -> FieldInput {
+    let mut s = healthy_scenario(nameplate).unwrap();
+    s.dc.load = DcLoad::ConstantCurrent { i_a: i_dc_a };
+    fault(&mut s);
+    let d = derive(&s).unwrap();
+    let r = simulate(&s, &d).unwrap();
+    readings_from(nameplate, &r, s.supply.f_hz, seed)
+}
+
 fn rank_fault(
     nameplate: &FieldInput,
     i_dc_a: f64,
@@ -154,12 +171,7 @@ fn rank_fault(
     terminal_v_ll_override: Option<f64>,
     seed: u64,
 ) -> rectifield::field::FieldReport {
-    let mut s = healthy_scenario(nameplate).unwrap();
-    s.dc.load = DcLoad::ConstantCurrent { i_a: i_dc_a };
-    fault(&mut s);
-    let d = derive(&s).unwrap();
-    let r = simulate(&s, &d).unwrap();
-    let mut inp = readings_from(nameplate, &r, s.supply.f_hz, seed);
+    let mut inp = fault_readings(nameplate, i_dc_a, fault, seed);
     if let Some(v) = terminal_v_ll_override {
         // The meter is on the supply side of the break.
         let mut rng = Rng(seed ^ 0x9e37);
@@ -243,12 +255,7 @@ fn open_diode_ranks_first_whichever_of_its_two_ripple_lines_the_counter_shows() 
     // each other; a meter's frequency counter may show either.  The open
     // diode must lead both ways, not the open pair (2f only).
     let np = drive_400();
-    let mut s = healthy_scenario(&np).unwrap();
-    s.dc.load = DcLoad::ConstantCurrent { i_a: 12.0 };
-    s.bridge.open_device = Some(5);
-    let d = derive(&s).unwrap();
-    let r = simulate(&s, &d).unwrap();
-    let mut inp = readings_from(&np, &r, s.supply.f_hz, 13);
+    let mut inp = fault_readings(&np, 12.0, |s| s.bridge.open_device = Some(5), 13);
     let open_diode = check(&inp).unwrap();
     let od = open_diode
         .signatures
@@ -561,14 +568,11 @@ fn a_dc_reading_inside_the_shown_band_fits_and_does_not_blame_the_capacitors() {
 #[test]
 fn the_ripple_reading_puts_a_bank_at_70_percent_near_70_percent() {
     let np = drive_400();
-    let mut s = healthy_scenario(&np).unwrap();
-    s.dc.load = DcLoad::ConstantCurrent { i_a: 9.0 };
-    s.dc.cap_f *= 0.7;
-    s.dc.cap_esr_ohm /= 0.7;
-    let d = derive(&s).unwrap();
-    let r = simulate(&s, &d).unwrap();
-    let inp = readings_from(&np, &r, s.supply.f_hz, 21);
-    let rep = check(&inp).unwrap();
+    let aged = |s: &mut Scenario| {
+        s.dc.cap_f *= 0.7;
+        s.dc.cap_esr_ohm /= 0.7;
+    };
+    let rep = check(&fault_readings(&np, 9.0, aged, 21)).unwrap();
     let b = rep
         .bank_estimate
         .as_ref()
@@ -581,14 +585,7 @@ fn the_ripple_reading_puts_a_bank_at_70_percent_near_70_percent() {
     );
     assert!(!b.extrapolated);
     // A healthy bank reads near 100 %.
-    let s = {
-        let mut s = healthy_scenario(&np).unwrap();
-        s.dc.load = DcLoad::ConstantCurrent { i_a: 9.0 };
-        s
-    };
-    let d = derive(&s).unwrap();
-    let r = simulate(&s, &d).unwrap();
-    let rep = check(&readings_from(&np, &r, s.supply.f_hz, 22)).unwrap();
+    let rep = check(&fault_readings(&np, 9.0, |_| {}, 22)).unwrap();
     let b = rep.bank_estimate.as_ref().unwrap();
     assert!((b.pct_of_bank - 100.0).abs() <= 12.0, "{}", b.pct_of_bank);
 }
