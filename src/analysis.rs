@@ -101,6 +101,57 @@ pub(crate) struct Prepared {
     pub textbook: TextbookResult,
 }
 
+/// What the results show that a user must not miss: a device that never
+/// stops conducting, a small extinction angle, a constant-power load off its
+/// setting, an overloaded bus capacitor.
+fn result_warnings(s: &Scenario, r: &crate::results::Results) -> Vec<String> {
+    let mut warnings = Vec::new();
+    let whole: Vec<&str> = r
+        .ratings
+        .devices
+        .iter()
+        .filter(|d| d.conducts_whole_period)
+        .map(|d| d.name.as_str())
+        .collect();
+    if !whole.is_empty() {
+        warnings.push(format!(
+            "{} never stop{} conducting: the bridge short-circuits its DC side ({}). Each device of a working bridge conducts for at most 120 degrees plus the overlap",
+            whole.join(", "),
+            if whole.len() == 1 { "s" } else { "" },
+            if s.bridge.kind.is_controlled() && s.bridge.alpha_deg > 90.0 {
+                "a commutation failure: firing angle plus overlap reach 180 degrees, so the outgoing thyristor is never turned off; fire earlier or lower the DC current or source inductance"
+            } else {
+                "the DC current is more than the source inductance lets the bridge commutate; the figures describe that short circuit"
+            }
+        ));
+    }
+    if let Some(g) = r.dc.extinction_deg.filter(|g| *g < EXTINCTION_MIN_DEG) {
+        warnings.push(format!(
+            "extinction angle {g:.1} degrees is below about {EXTINCTION_MIN_DEG:.0} degrees (common practice for line-commutated inverters, from memory: the thyristors' turn-off time and supply dips need the margin); the inverter is close to commutation failure"
+        ));
+    }
+    if let crate::scenario::DcLoad::ConstantPower { p_w } = s.dc.load {
+        let got = r.dc.p_load_w;
+        if p_w > 0.0 && (got - p_w).abs() > 0.01 * p_w {
+            warnings.push(format!(
+                "the constant-power load draws {:.2} kW, not its set {:.2} kW: the bus ripple is too large for its model (linearised about the mean bus voltage), so read the figures as those of a load near that power",
+                got / 1e3,
+                p_w / 1e3
+            ));
+        }
+    }
+    if let Some(c) = r.ratings.capacitor.as_ref().filter(|c| c.over_rating) {
+        warnings.push(format!(
+            "bus capacitor overloaded: {:.1} A RMS ripple in {} mOhm ESR heats its core to {:.0} °C, above its rated {:.0} °C",
+            c.i_rms_a,
+            crate::validate::fmt(s.dc.cap_esr_ohm * 1e3),
+            c.core_temp_c,
+            s.dc.cap_rated_temp_c
+        ));
+    }
+    warnings
+}
+
 /// Below this extinction angle an inverting bridge is warned to be close to
 /// commutation failure (common practice, from memory: 15 to 20 degrees at
 /// 50/60 Hz covers turn-off time and supply dips).
@@ -153,49 +204,7 @@ pub fn analyze_from(
         Ok(sim) => {
             warnings.extend(sim.warnings.iter().cloned());
             let r = crate::results::compute(s, &derived, &sim, &textbook);
-            let whole: Vec<&str> = r
-                .ratings
-                .devices
-                .iter()
-                .filter(|d| d.conducts_whole_period)
-                .map(|d| d.name.as_str())
-                .collect();
-            if !whole.is_empty() {
-                warnings.push(format!(
-                    "{} never stop{} conducting: the bridge short-circuits its DC side ({}). Each device of a working bridge conducts for at most 120 degrees plus the overlap",
-                    whole.join(", "),
-                    if whole.len() == 1 { "s" } else { "" },
-                    if s.bridge.kind.is_controlled() && s.bridge.alpha_deg > 90.0 {
-                        "a commutation failure: firing angle plus overlap reach 180 degrees, so the outgoing thyristor is never turned off; fire earlier or lower the DC current or source inductance"
-                    } else {
-                        "the DC current is more than the source inductance lets the bridge commutate; the figures describe that short circuit"
-                    }
-                ));
-            }
-            if let Some(g) = r.dc.extinction_deg.filter(|g| *g < EXTINCTION_MIN_DEG) {
-                warnings.push(format!(
-                    "extinction angle {g:.1} degrees is below about {EXTINCTION_MIN_DEG:.0} degrees (common practice for line-commutated inverters, from memory: the thyristors' turn-off time and supply dips need the margin); the inverter is close to commutation failure"
-                ));
-            }
-            if let crate::scenario::DcLoad::ConstantPower { p_w } = s.dc.load {
-                let got = r.dc.p_load_w;
-                if p_w > 0.0 && (got - p_w).abs() > 0.01 * p_w {
-                    warnings.push(format!(
-                        "the constant-power load draws {:.2} kW, not its set {:.2} kW: the bus ripple is too large for its model (linearised about the mean bus voltage), so read the figures as those of a load near that power",
-                        got / 1e3,
-                        p_w / 1e3
-                    ));
-                }
-            }
-            if let Some(c) = r.ratings.capacitor.as_ref().filter(|c| c.over_rating) {
-                warnings.push(format!(
-                    "bus capacitor overloaded: {:.1} A RMS ripple in {} mOhm ESR heats its core to {:.0} °C, above its rated {:.0} °C",
-                    c.i_rms_a,
-                    crate::validate::fmt(s.dc.cap_esr_ohm * 1e3),
-                    c.core_temp_c,
-                    s.dc.cap_rated_temp_c
-                ));
-            }
+            warnings.extend(result_warnings(s, &r));
             (Some(sim), Some(r))
         }
         Err(e) => {

@@ -1160,30 +1160,22 @@ pub fn assess_with_fixes(
     settings: &ComplianceSettings,
 ) -> Compliance {
     let mut c = assess(s, d, sim, res, settings);
-    if settings.search_fixes && installation_fails(&c) {
+    if settings.search_fixes && c.verdict == Verdict::Fail && converter_verdict(&c) == Verdict::Fail
+    {
         c.fixes = Some(search_fixes(s, d, res, settings));
     }
     c
 }
 
-/// The case fails on something a converter-side step can change: the
-/// overall verdict fails, and not only on a PCC voltage that the supply's
-/// background already takes past Table 1.
-fn installation_fails(c: &Compliance) -> bool {
-    if c.verdict != Verdict::Fail {
-        return false;
+/// The verdict a converter-side step (reactor, choke) can change: the
+/// overall verdict, or, when the PCC voltage fails only on the supply's own
+/// background, that of the current limits and IEC 61000-3-12.
+fn converter_verdict(c: &Compliance) -> Verdict {
+    if c.ieee519.voltage_fails_on_background_only {
+        combine(&[c.ieee519.current_verdict, c.iec61000_3_12.verdict])
+    } else {
+        c.verdict
     }
-    if !c.ieee519.voltage_fails_on_background_only {
-        return true;
-    }
-    combine(&[c.ieee519.current_verdict, c.iec61000_3_12.verdict]) == Verdict::Fail
-}
-
-/// A fix step passes: the verdict passes, or only the background fails.
-fn step_passes(c: &Compliance) -> bool {
-    c.verdict == Verdict::Pass
-        || (c.ieee519.voltage_fails_on_background_only
-            && combine(&[c.ieee519.current_verdict, c.iec61000_3_12.verdict]) == Verdict::Pass)
 }
 
 /// Try the reactor steps, then the choke steps, smallest first, stopping at
@@ -1263,7 +1255,7 @@ pub fn search_fixes(
                     } else {
                         0.0
                     });
-                    let pass = step_passes(&c2);
+                    let pass = converter_verdict(&c2) == Verdict::Pass;
                     if pass && c2.verdict != Verdict::Pass {
                         cand.note = "passes the current limits; the PCC voltage still fails on the supply's background alone".into();
                     }

@@ -253,6 +253,38 @@ fn bank_fraction(pts: &[(f64, f64)], ripple: f64) -> Option<(f64, bool)> {
     Some((frac, extrapolated))
 }
 
+/// The bank from the ripple reading `va` (see [`BankEstimate`]), from the
+/// ripples the healthy and the two capacitance signatures predict.
+fn bank_estimate(signatures: &[Signature], va: f64, cap_estimated: bool) -> Option<BankEstimate> {
+    let ripple_of = |id: SignatureId| {
+        signatures
+            .iter()
+            .find(|x| x.id == id)
+            .and_then(|x| x.predicted.as_ref())
+            .map(|pr| pr.ripple_rms_v)
+    };
+    let pts: Vec<(f64, f64)> = [
+        (1.0, SignatureId::Healthy),
+        (0.5, SignatureId::Cap50),
+        (0.2, SignatureId::Cap20),
+    ]
+    .iter()
+    .map(|&(f, id)| ripple_of(id).map(|r| (f, r)))
+    .collect::<Option<_>>()?;
+    let (frac, extrapolated) = bank_fraction(&pts, va)?;
+    let pct = 100.0 * frac;
+    Some(BankEstimate {
+        pct_of_bank: pct,
+        extrapolated,
+        note: format!(
+            "The {va:.1} V ripple reading puts the bank at about {pct:.0} % of the {} capacitance ({}interpolated between exact simulations of the bank at 100, 50 and 20 %, with their ESR; a ripple reading is good to about {}).",
+            if cap_estimated { "estimated" } else { "given" },
+            if extrapolated { "extrapolated beyond the simulated span; " } else { "" },
+            if cap_estimated { "a factor of two, since the capacitance itself was estimated" } else { "20 to 30 %" }
+        ),
+    })
+}
+
 /// What the bus should read.
 #[derive(Debug, Clone, Serialize, Deserialize)]
 pub struct Expected {
@@ -1338,34 +1370,7 @@ pub fn check(inp: &FieldInput) -> Result<FieldReport, FieldError> {
         .map(|x| x.id);
     let bank_estimate = match (r.dc_bus_ac_rms_v, lead) {
         (Some(va), Some(SignatureId::Healthy | SignatureId::Cap50 | SignatureId::Cap20)) => {
-            let ripple_of = |id: SignatureId| {
-                signatures
-                    .iter()
-                    .find(|x| x.id == id)
-                    .and_then(|x| x.predicted.as_ref())
-                    .map(|pr| pr.ripple_rms_v)
-            };
-            let pts: Option<Vec<(f64, f64)>> = [
-                (1.0, SignatureId::Healthy),
-                (0.5, SignatureId::Cap50),
-                (0.2, SignatureId::Cap20),
-            ]
-            .iter()
-            .map(|&(f, id)| ripple_of(id).map(|r| (f, r)))
-            .collect();
-            pts.and_then(|pts| bank_fraction(&pts, va)).map(|(frac, extrapolated)| {
-                let pct = 100.0 * frac;
-                BankEstimate {
-                    pct_of_bank: pct,
-                    extrapolated,
-                    note: format!(
-                        "The {va:.1} V ripple reading puts the bank at about {pct:.0} % of the {} capacitance ({}interpolated between exact simulations of the bank at 100, 50 and 20 %, with their ESR; a ripple reading is good to about {}).",
-                        if p.cap_estimated { "estimated" } else { "given" },
-                        if extrapolated { "extrapolated beyond the simulated span; " } else { "" },
-                        if p.cap_estimated { "a factor of two, since the capacitance itself was estimated" } else { "20 to 30 %" }
-                    ),
-                }
-            })
+            bank_estimate(&signatures, va, p.cap_estimated)
         }
         _ => None,
     };

@@ -601,7 +601,7 @@ fn cmp(q: &str, unit: &str, tb: f64, ex: f64, assumption: &str) -> Comparison {
         unit: unit.into(),
         textbook: tb,
         exact: ex,
-        diff_pct: if tb.abs() > 1e-9 * ex.abs().max(1e-300) && tb.abs() > 0.0 {
+        diff_pct: if tb.abs() > 1e-9 * ex.abs().max(1e-300) {
             Some(100.0 * (ex - tb) / tb.abs())
         } else {
             None
