@@ -132,6 +132,7 @@ fn result_warnings(s: &Scenario, r: &crate::results::Results) -> Vec<String> {
     }
     if let crate::scenario::DcLoad::ConstantPower { p_w } = s.dc.load {
         let got = r.dc.p_load_w;
+        // 1 %: our threshold, far above the solver's tolerance.
         if p_w > 0.0 && (got - p_w).abs() > 0.01 * p_w {
             warnings.push(format!(
                 "the constant-power load draws {:.2} kW, not its set {:.2} kW: the bus ripple is too large for its model (linearised about the mean bus voltage), so read the figures as those of a load near that power",

@@ -280,7 +280,7 @@ fn bank_estimate(signatures: &[Signature], va: f64, cap_estimated: bool) -> Opti
             "The {va:.1} V ripple reading puts the bank at about {pct:.0} % of the {} capacitance ({}interpolated between exact simulations of the bank at 100, 50 and 20 %, with their ESR; a ripple reading is good to about {}).",
             if cap_estimated { "estimated" } else { "given" },
             if extrapolated { "extrapolated beyond the simulated span; " } else { "" },
-            if cap_estimated { "a factor of two, since the capacitance itself was estimated" } else { "20 to 30 %" }
+            if cap_estimated { "a factor of two, since the capacitance itself was estimated" } else { "25 %, the ripple model's own uncertainty with a known capacitance (an estimate, see the distance)" }
         ),
     })
 }

@@ -1966,6 +1966,8 @@ fn power_up(
             .iter()
             .cloned()
             .fold(0.0, f64::max);
+    // Warned above 1.1 x the highest line-to-line peak: our threshold, past
+    // the few percent a bus overshoots on an ordinary charge.
     if line_peak > 0.0 && v_dc_peak_v > 1.1 * line_peak {
         let at = t_s
             .iter()
