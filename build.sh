@@ -41,9 +41,11 @@ Commands:
             headless Firefox.  Prints the time of each stage.
   bench     Benchmark against ngspice (issue #10): builds dist/, then times the
             engine natively and in headless Chromium and ngspice at matched
-            accuracy, with the scaling, size and start-up figures; prints the
-            targets as met / not met and writes bench/report.md and .json.
-            `bench --quick` runs fewer repetitions.  Not part of `test`.
+            accuracy and at accuracy levels 1e-2 to 1e-6 (each tool against
+            its own converged answer), with the scaling, size and start-up
+            figures; prints the targets as met / not met and writes
+            bench/report.md and .json (about 5 minutes).  `bench --quick`
+            runs fewer repetitions and no accuracy ladder.  Not part of `test`.
   clean     Remove dist/ and target/web/.  `clean --all` also runs `cargo clean`
             and removes node_modules/.
   -h, --help  This text.
