@@ -1497,7 +1497,7 @@ fn verdict(sigs: &[Signature]) -> Verdict {
         .collect();
     if !failed.is_empty() {
         next.push(format!(
-            "Not ranked because the drive could not run that way at this load (it would trip or overheat): {}.",
+            "Not ranked: at this load the drive could not run that way (it would trip or overheat), so if it is running at this load these are ruled out; if instead it trips as the load comes on, suspect them first. {}.",
             failed.join("; ")
         ));
     }

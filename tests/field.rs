@@ -368,6 +368,44 @@ fn precharge_not_bypassed_ranks_first() {
     assert_eq!(first(&rep), SignatureId::PrechargeNotBypassed);
 }
 
+/// A precharge resistor left in series cannot carry a loaded drive: 47 ohm
+/// at 6 kW would need about 11 A through it, a drop of some 500 V (Ohm's
+/// law), so the engine's bus collapses.  The report then says that a running
+/// drive rules the signature out, and that a trip as the load comes on points
+/// to it, naming it, instead of ranking it.
+#[test]
+fn precharge_that_cannot_carry_the_load_is_ruled_out_by_a_running_drive() {
+    let mut inp = drive_400();
+    inp.nameplate.precharge_fitted = true;
+    inp.nameplate.precharge_r_ohm = Some(47.0);
+    inp.nameplate.load_kw = Some(6.0);
+    inp.readings.v_ll_rms_v = Some([400.0; 3]);
+    inp.readings.dc_bus_mean_v = Some(528.0);
+    let rep = check(&inp).unwrap();
+    let sig = rep
+        .signatures
+        .iter()
+        .find(|s| s.id == SignatureId::PrechargeNotBypassed)
+        .expect("the precharge signature is computed when a precharge is fitted");
+    assert!(sig.failed.is_some() && sig.distance.is_none());
+    assert!(rep
+        .verdict
+        .ranking
+        .iter()
+        .filter(|s| s.id == SignatureId::PrechargeNotBypassed)
+        .all(|s| s.distance.is_none()));
+    let note = rep
+        .verdict
+        .next
+        .iter()
+        .find(|n| n.contains(SignatureId::PrechargeNotBypassed.title()))
+        .expect("a note names the precharge signature");
+    assert!(
+        note.contains("ruled out") && note.contains("trips"),
+        "{note}"
+    );
+}
+
 /// The bus at no load is sqrt2 times the line voltage less the two diode
 /// drops in the conducting path (common practice: the capacitor charges to
 /// the line-to-line peak through one upper and one lower diode).  Checked
