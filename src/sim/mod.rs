@@ -815,21 +815,35 @@ pub fn simulate_outputs(
         return first;
     }
     let peak = peak_supply_v(s);
-    let suspect = match &first {
+    // Why the linearised model was not kept (for the warning).
+    let why = match &first {
         Ok(r) => {
             let v = &r.signals[r.roles.v_dc];
-            v.max - v.min > 0.25 * v.mean.abs() || v.max > 1.05 * peak
+            if v.max - v.min > 0.25 * v.mean.abs() {
+                Some(format!(
+                    "with it the bus swung {:.0} V peak to peak, {:.0} % of its mean",
+                    v.max - v.min,
+                    100.0 * (v.max - v.min) / v.mean.abs()
+                ))
+            } else if v.max > 1.05 * peak {
+                Some(format!(
+                    "with it the bus rose to {:.0} V, above the supply's {:.0} V peak",
+                    v.max, peak
+                ))
+            } else {
+                None
+            }
         }
-        Err(_) => true,
+        Err(e) => Some(format!("it had no periodic solution ({})", e.reason)),
     };
-    if !suspect {
+    let Some(why) = why else {
         return first;
-    }
+    };
     match simulate_with(s, d, true, warm, outputs) {
         Ok(mut r) => {
-            r.warnings.push(
-                "the constant-power load was solved as a current constant within the period (P / V_avg): the bus ripple is too large for its linearised model".into(),
-            );
+            r.warnings.push(format!(
+                "the constant-power load was solved as a current constant within the period (P / V_avg), not with its linearised model: {why}. A load that draws constant power has a negative incremental resistance, which can pump the resonance of the line inductance and the bus capacitance; a drive's control normally damps it (common practice), so this model is the closer one here"
+            ));
             Ok(r)
         }
         Err(e) => first.or(Err(e)),
