@@ -103,8 +103,10 @@ pub(crate) struct Prepared {
 
 /// What the results show that a user must not miss: a device that never
 /// stops conducting, a small extinction angle, a constant-power load off its
-/// setting, an overloaded bus capacitor.
-fn result_warnings(s: &Scenario, r: &crate::results::Results) -> Vec<String> {
+/// setting, an overloaded bus capacitor.  (`analyze_from` lists them after
+/// the input checks' and the simulation's warnings; a sweep point, which
+/// computes no results, has only those.)
+pub fn result_warnings(s: &Scenario, r: &crate::results::Results) -> Vec<String> {
     let mut warnings = Vec::new();
     let whole: Vec<&str> = r
         .ratings

@@ -181,6 +181,9 @@ struct Outcome {
     /// The simulation solved.
     solved: bool,
     warm_start: Option<WarmStart>,
+    /// A solved point's warnings: the input checks' and the simulation's
+    /// (as `analyze_from` lists them; the results' own are not computed).
+    warnings: Vec<String>,
 }
 
 /// The analysis of `s` (from `warm`) as far as a sweep point shows it:
@@ -201,6 +204,7 @@ fn lean_analysis(s: &Scenario, warm: Option<&WarmStart>) -> Result<Outcome, Stri
                 first_warning: None,
                 solved: true,
                 warm_start: sim.warm_start,
+                warnings: warnings.into_iter().chain(sim.warnings).collect(),
             },
             Err(e) => {
                 // `analyze_from`'s warnings: the input checks', then this.
@@ -210,6 +214,7 @@ fn lean_analysis(s: &Scenario, warm: Option<&WarmStart>) -> Result<Outcome, Stri
                     first_warning: warnings.into_iter().next(),
                     solved: false,
                     warm_start: None,
+                    warnings: Vec::new(),
                 }
             }
         },
@@ -234,6 +239,12 @@ pub struct SweepPoint {
     pub summary: Option<Summary>,
     /// Why this point has no summary.
     pub error: Option<String>,
+    /// A computed point's warnings: the input checks' and the simulation's
+    /// (for example the constant-power load's change of model, or an
+    /// unstable periodic solution); the full analysis's result warnings are
+    /// not computed for a sweep point.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub warnings: Vec<String>,
 }
 
 /// Parse `PATH=FROM:TO:N`.
@@ -405,12 +416,14 @@ impl Sweeper {
                     x,
                     summary: a.summary,
                     error,
+                    warnings: a.warnings,
                 }
             }
             Err(e) => SweepPoint {
                 x,
                 summary: None,
                 error: Some(e),
+                warnings: Vec::new(),
             },
         }
     }
@@ -424,7 +437,8 @@ pub fn sweep(s: &Scenario, spec: &SweepSpec) -> Result<Vec<SweepPoint>, String> 
     Ok(xs(spec).into_iter().map(|x| run.point(x)).collect())
 }
 
-/// CSV of a sweep: the varied path, then the summary fields.
+/// CSV of a sweep: the varied path, then the summary fields, a failed
+/// point's error and a computed point's warnings (joined by " | ").
 pub fn to_csv(spec: &SweepSpec, pts: &[SweepPoint]) -> String {
     let mut out = String::new();
     out.push_str(&spec.path);
@@ -432,7 +446,7 @@ pub fn to_csv(spec: &SweepSpec, pts: &[SweepPoint]) -> String {
         out.push(',');
         out.push_str(f);
     }
-    out.push_str(",error\n");
+    out.push_str(",error,warnings\n");
     for p in pts {
         out.push_str(&format!("{}", p.x));
         match &p.summary {
@@ -440,7 +454,12 @@ pub fn to_csv(spec: &SweepSpec, pts: &[SweepPoint]) -> String {
                 for v in s.values() {
                     out.push_str(&format!(",{v}"));
                 }
-                out.push_str(",\n");
+                if p.warnings.is_empty() {
+                    out.push_str(",,\n");
+                } else {
+                    let w = p.warnings.join(" | ").replace(['"', '\n'], " ");
+                    out.push_str(&format!(",,\"{w}\"\n"));
+                }
             }
             None => {
                 for _ in SUMMARY_FIELDS {
@@ -451,7 +470,7 @@ pub fn to_csv(spec: &SweepSpec, pts: &[SweepPoint]) -> String {
                     .clone()
                     .unwrap_or_default()
                     .replace(['"', '\n'], " ");
-                out.push_str(&format!(",\"{e}\"\n"));
+                out.push_str(&format!(",\"{e}\",\n"));
             }
         }
     }

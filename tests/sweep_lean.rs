@@ -26,7 +26,7 @@
 
 mod common;
 use common::rng::{random_scenario, Rng};
-use rectifield::analysis::{analyze, analyze_from, Analysis};
+use rectifield::analysis::{analyze, analyze_from, result_warnings, Analysis};
 use rectifield::scenario::{from_json, DcLoad, Scenario};
 use rectifield::sim::WarmStart;
 use rectifield::sweep::{
@@ -59,9 +59,12 @@ impl FullSweeper {
             [(_, w1)] => Some(w1.clone()),
             _ => None,
         };
-        let analysed = with_value(&self.base, &self.path, x)
-            .and_then(|sc| analyze_from(&sc, warm.as_ref()).map_err(|e| e.to_string()));
-        if let Ok(a) = &analysed {
+        let analysed = with_value(&self.base, &self.path, x).and_then(|sc| {
+            analyze_from(&sc, warm.as_ref())
+                .map(|a| (sc, a))
+                .map_err(|e| e.to_string())
+        });
+        if let Ok((_, a)) = &analysed {
             match a.sim.as_ref().and_then(|r| r.warm_start.clone()) {
                 Some(w) => {
                     if self.solved.len() == 2 {
@@ -77,32 +80,51 @@ impl FullSweeper {
     }
 }
 
-/// The sweep point of `x` from its full analysis (or the error), as the
-/// sweep made it before the lean path: `summarize`, and the first warning
-/// as the error of a point without a summary.
-fn point_of(x: f64, analysed: Result<Analysis, String>) -> SweepPoint {
+/// The sweep point of `x` from its full analysis of the scenario `sc` (or
+/// the error), as the sweep made it before the lean path: `summarize`, and
+/// the first warning as the error of a point without a summary.
+fn point_of(x: f64, analysed: Result<(Scenario, Analysis), String>) -> SweepPoint {
     match analysed {
-        Ok(a) => {
+        Ok((sc, a)) => {
             let summary = summarize(&a);
             let error = if summary.is_none() {
                 a.warnings.first().cloned()
             } else {
                 None
             };
-            SweepPoint { x, summary, error }
+            // The full analysis's warnings less the results' own, which it
+            // lists last: the input checks' and the simulation's.
+            let warnings = match (&summary, &a.results) {
+                (Some(_), Some(r)) => {
+                    let own = result_warnings(&sc, r).len();
+                    a.warnings[..a.warnings.len() - own].to_vec()
+                }
+                _ => Vec::new(),
+            };
+            SweepPoint {
+                x,
+                summary,
+                error,
+                warnings,
+            }
         }
         Err(e) => SweepPoint {
             x,
             summary: None,
             error: Some(e),
+            warnings: Vec::new(),
         },
     }
 }
 
-/// `a` and `b` the same to the bit (x, every summary figure, the error).
+/// `a` and `b` the same to the bit (x, every summary figure, the error),
+/// and with the same warnings.
 fn same(a: &SweepPoint, b: &SweepPoint) -> Result<(), String> {
     if a.x.to_bits() != b.x.to_bits() {
         return Err(format!("x {} vs {}", a.x, b.x));
+    }
+    if a.warnings != b.warnings {
+        return Err(format!("warnings {:?} vs {:?}", a.warnings, b.warnings));
     }
     if a.error != b.error {
         return Err(format!("error {:?} vs {:?}", a.error, b.error));
@@ -133,7 +155,8 @@ fn cold_point_matches_analysis(s: &Scenario, path: &str, x: f64) -> Result<(), S
     let base = base_scenario(s, path);
     let want = point_of(
         x,
-        with_value(&base, path, x).and_then(|sc| analyze(&sc).map_err(|e| e.to_string())),
+        with_value(&base, path, x)
+            .and_then(|sc| analyze(&sc).map(|a| (sc, a)).map_err(|e| e.to_string())),
     );
     same(&point(s, path, x), &want)
 }

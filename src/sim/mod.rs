@@ -143,6 +143,12 @@ pub struct SimResult {
     pub p_loss_w: f64,
     pub newton_iterations: usize,
     pub residual: f64,
+    /// The largest magnitude of the periodic solution's Floquet multipliers
+    /// (the eigenvalues of the monodromy matrix, saltation included: how a
+    /// small disturbance of the state grows or decays over one period).
+    /// Above 1 the periodic solution is unstable: the circuit would leave it.
+    /// `None` when no period was marched with the sensitivity.
+    pub largest_multiplier: Option<f64>,
     /// Solver effort: periods marched and topologies built (all engines of this solve).
     pub periods_marched: usize,
     pub topologies_built: usize,
@@ -758,12 +764,32 @@ fn explain_failure(s: &Scenario, d: &Derived, e: SolveError) -> SolveError {
     e
 }
 
+/// A periodic solution whose largest Floquet multiplier exceeds this is
+/// reported unstable.  Above 1 a disturbance grows each period; the margin
+/// keeps a numerically neutral mode (a node held only by the leakage
+/// conductances, multiplier 1 less about 1e-6) and the estimate's own error
+/// (`linalg::spectral_radius`, about 2e-6) from being called unstable.  At
+/// 1 + 1e-4 a disturbance takes 10^4 periods to grow e-fold (our choice).
+pub const UNSTABLE_MULTIPLIER: f64 = 1.0 + 1e-4;
+
+/// The warning for an unstable periodic solution (largest multiplier `rho`).
+fn unstable_warning(rho: f64) -> String {
+    format!(
+        "the periodic solution found is unstable: its largest Floquet multiplier is {rho:.3} per period, so a small disturbance grows by {:.1} % each period and the circuit would leave this operating point (the figures describe a state it would not stay in); add damping, or change the load or the DC-link capacitance",
+        100.0 * (rho - 1.0)
+    )
+}
+
 /// Run the simulation for a scenario.
 ///
 /// A constant-power load is first linearised about the mean bus voltage
 /// (see `steady`).  That model holds for a modest ripple; when the solution
 /// shows a ripple above 25 % of the mean or a bus above the peak of the
 /// supply (the linearised negative resistance pumping an LC resonance), or
+/// when its periodic solution is unstable (a Floquet multiplier above
+/// `UNSTABLE_MULTIPLIER`: Newton's shooting converges to unstable periodic
+/// solutions as readily as to stable ones, and the exact constant-power load
+/// in ngspice then wanders from period to period instead of settling), or
 /// when no periodic solution exists with it, the load is solved again as a
 /// current constant within the period (P / V0 on average), with a warning.
 pub fn simulate(s: &Scenario, d: &Derived) -> Result<SimResult, SolveError> {
@@ -831,7 +857,11 @@ pub fn simulate_outputs(
                     v.max, peak
                 ))
             } else {
-                None
+                r.largest_multiplier
+                    .filter(|&x| x > UNSTABLE_MULTIPLIER)
+                    .map(|rho| format!(
+                        "its periodic solution is unstable (largest Floquet multiplier {rho:.3} per period), so the bus would not settle there"
+                    ))
             }
         }
         Err(e) => Some(format!("it had no periodic solution ({})", e.reason)),
@@ -1748,6 +1778,10 @@ fn simulate_with(
         topos: Some(SharedTopos(std::sync::Arc::new(eng.share()))),
         shape: netlist_shape(&built.circuit),
     });
+    let largest_multiplier = st.monodromy.as_ref().and_then(linalg::spectral_radius);
+    if let Some(rho) = largest_multiplier.filter(|&r| r > UNSTABLE_MULTIPLIER) {
+        warnings.push(unstable_warning(rho));
+    }
     Ok(SimResult {
         period_s: period,
         t_s: grid_t,
@@ -1759,6 +1793,7 @@ fn simulate_with(
         p_load_w: p_load / period,
         p_loss_w: p_loss / period,
         newton_iterations: st.iterations,
+        largest_multiplier,
         periods_marched: eng.n_runs + stats.0,
         topologies_built: eng.n_topologies_built + stats.1,
         residual: st.residual,

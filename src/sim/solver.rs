@@ -1752,6 +1752,12 @@ pub struct SteadyState {
     /// The converging period itself when it was marched on the fine grid and
     /// recorded (see `solve_periodic_from`): the caller need not march it again.
     pub recorded: Option<RunOut>,
+    /// The monodromy matrix `d x(T) / d x(0)` (saltation included) of the
+    /// last period marched with the sensitivity, at a state within the
+    /// Newton step's tolerance of the solution: its eigenvalues are the
+    /// periodic solution's Floquet multipliers (`None` if no period was
+    /// marched with the sensitivity).
+    pub monodromy: Option<Mat>,
 }
 
 /// A parameter (the `p` entry of `z`) that depends on the solution: the
@@ -2007,6 +2013,8 @@ pub fn solve_periodic_from(
     let mut run = eng.run(&x0, &on0, &with_sens)?;
     let mut res: Vec<f64> = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
     let mut rn = norm(&res);
+    // The monodromy of the last period marched with the sensitivity.
+    let mut last_m: Option<Mat> = None;
     let (mut mean, mut spread) = match rule {
         Some(rl) => {
             let (m, sp) = run_mean(eng, &run, rl)?;
@@ -2039,6 +2047,7 @@ pub fn solve_periodic_from(
         };
         if (rn < 1e-10 && q_ok) || restart {
             return Ok(SteadyState {
+                monodromy: run.monodromy.take().or(last_m),
                 x0,
                 on0,
                 iterations: it,
@@ -2075,7 +2084,13 @@ pub fn solve_periodic_from(
             res = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
             rn = norm(&res);
         }
-        let m = run.monodromy.take().unwrap_or_else(|| Mat::identity(nx));
+        let m = match run.monodromy.take() {
+            Some(m) => {
+                last_m = Some(m.clone());
+                m
+            }
+            None => Mat::identity(nx),
+        };
         let dxdp = run.dx_dparam.take().unwrap_or_else(|| vec![0.0; nx]);
         let mut a = Mat::identity(nx);
         for i in 0..nx {
@@ -2138,6 +2153,7 @@ pub fn solve_periodic_from(
     }
     if rn < 1e-7 && q_rel < 1e-6 {
         return Ok(SteadyState {
+            monodromy: run.monodromy.take().or(last_m),
             x0,
             on0,
             iterations: max_iter,
