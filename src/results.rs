@@ -211,6 +211,57 @@ fn rows_of_dc(h: &[Harmonic], mean: f64) -> Vec<HarmonicRow> {
         .collect()
 }
 
+/// The bus capacitor's ESR loss, temperatures and life at a ripple current.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CapThermal {
+    /// ESR loss `ESR I^2`, W.
+    pub loss: f64,
+    /// Core rise over ambient `loss Rth`, K.
+    pub rise: f64,
+    /// Core temperature, °C.
+    pub core: f64,
+    /// The core above the rated (category) temperature.
+    pub over_rating: bool,
+    /// Life estimate, h (0 when over its rating).
+    pub life: f64,
+}
+
+/// [`CapThermal`] of the scenario's bank at the ripple current `i_rms_a`:
+/// loss `ESR I^2`, core `ambient + loss Rth`, and the life by the rule of
+/// thumb that life doubles for every 10 K below the rated temperature
+/// (common practice for aluminium electrolytics; the maker's data governs).
+pub fn capacitor_thermal(s: &Scenario, i_rms_a: f64) -> CapThermal {
+    let esr = s.dc.cap_esr_ohm.max(0.0);
+    let loss = esr * i_rms_a * i_rms_a;
+    let rise = loss * s.dc.cap_rth_k_per_w.max(0.0);
+    let core = s.dc.ambient_c + rise;
+    // Above its rated (category) temperature a capacitor is outside its
+    // data sheet: no life is promised there, so none is extrapolated.
+    let over_rating = core > s.dc.cap_rated_temp_c;
+    let life = if over_rating {
+        0.0
+    } else {
+        s.dc.cap_rated_life_h * 2f64.powf((s.dc.cap_rated_temp_c - core) / 10.0)
+    };
+    CapThermal {
+        loss,
+        rise,
+        core,
+        over_rating,
+        life,
+    }
+}
+
+/// A harmonic order's RMS in percent of the fundamental (the first entry),
+/// as the rows of [`CurrentSpectrum`] give it; 0 when the order is not there.
+pub fn order_pct(h: &[Harmonic], order: u32) -> f64 {
+    let i1 = h.first().map(|x| x.rms).unwrap_or(0.0);
+    match h.iter().find(|x| x.order == order) {
+        Some(x) if i1 > 0.0 => 100.0 * x.rms / i1,
+        _ => 0.0,
+    }
+}
+
 fn rows(h: &[Harmonic]) -> Vec<HarmonicRow> {
     let i1 = h.first().map(|x| x.rms).unwrap_or(0.0);
     h.iter()
@@ -471,18 +522,13 @@ pub fn compute(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) 
     let p_dc = sim.p_load_w;
     let capacitor = r.i_cap.map(|c| {
         let ic = sig(c);
-        let esr = s.dc.cap_esr_ohm.max(0.0);
-        let loss = esr * ic.rms * ic.rms;
-        let rise = loss * s.dc.cap_rth_k_per_w.max(0.0);
-        let core = s.dc.ambient_c + rise;
-        // Above its rated (category) temperature a capacitor is outside its
-        // data sheet: no life is promised there, so none is extrapolated.
-        let over_rating = core > s.dc.cap_rated_temp_c;
-        let life = if over_rating {
-            0.0
-        } else {
-            s.dc.cap_rated_life_h * 2f64.powf((s.dc.cap_rated_temp_c - core) / 10.0)
-        };
+        let CapThermal {
+            loss,
+            rise,
+            core,
+            over_rating,
+            life,
+        } = capacitor_thermal(s, ic.rms);
         CapacitorFigures {
             i_rms_a: ic.rms,
             // Percent of the capacitor's RMS current (there is no fundamental to refer to).

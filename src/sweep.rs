@@ -32,10 +32,24 @@ pub struct Summary {
     pub cap_i_rms_a: f64,
     /// Textbook DC voltage beside the exact one, V.
     pub textbook_v_dc_v: f64,
+    /// Lowest instantaneous bus voltage, V (the undervoltage margin).
+    pub v_dc_min_v: f64,
+    /// Largest device average current, A (a diode's or thyristor's
+    /// average-current rating).
+    pub device_i_avg_a: f64,
+    /// 5th and 7th harmonic of the line current, worst phase, % of its
+    /// fundamental.
+    pub h5_max_pct: f64,
+    pub h7_max_pct: f64,
+    /// The bus capacitor's core temperature, °C, and life estimate, h
+    /// (`results::capacitor_thermal`; life 0 above its rated temperature;
+    /// both 0 without a bus capacitor).
+    pub cap_core_temp_c: f64,
+    pub cap_life_h: f64,
 }
 
 /// Field names of [`Summary`] in order (CSV header).
-pub const SUMMARY_FIELDS: [&str; 19] = [
+pub const SUMMARY_FIELDS: [&str; 25] = [
     "v_dc_avg_v",
     "v_dc_ripple_pp_v",
     "v_dc_ripple_rms_v",
@@ -55,10 +69,16 @@ pub const SUMMARY_FIELDS: [&str; 19] = [
     "device_v_peak_v",
     "cap_i_rms_a",
     "textbook_v_dc_v",
+    "v_dc_min_v",
+    "device_i_avg_a",
+    "h5_max_pct",
+    "h7_max_pct",
+    "cap_core_temp_c",
+    "cap_life_h",
 ];
 
 impl Summary {
-    pub fn values(&self) -> [f64; 19] {
+    pub fn values(&self) -> [f64; 25] {
         [
             self.v_dc_avg_v,
             self.v_dc_ripple_pp_v,
@@ -79,8 +99,23 @@ impl Summary {
             self.device_v_peak_v,
             self.cap_i_rms_a,
             self.textbook_v_dc_v,
+            self.v_dc_min_v,
+            self.device_i_avg_a,
+            self.h5_max_pct,
+            self.h7_max_pct,
+            self.cap_core_temp_c,
+            self.cap_life_h,
         ]
     }
+}
+
+/// The largest percentage of `order` over the line currents' rows.
+fn worst_order_pct(r: &results::Results, order: u32) -> f64 {
+    r.line_currents
+        .iter()
+        .filter_map(|c| c.rows.iter().find(|h| h.order == order))
+        .map(|h| h.pct_of_fundamental)
+        .fold(0.0, f64::max)
 }
 
 /// Summarise an analysis; `None` when the simulation failed.
@@ -124,6 +159,27 @@ pub fn summarize(a: &Analysis) -> Option<Summary> {
             .map(|c| c.i_rms_a)
             .unwrap_or(0.0),
         textbook_v_dc_v: a.textbook.vd_v,
+        v_dc_min_v: r.dc.v_min_v,
+        device_i_avg_a: r
+            .ratings
+            .devices
+            .iter()
+            .map(|d| d.i_avg_a)
+            .fold(0.0, f64::max),
+        h5_max_pct: worst_order_pct(r, 5),
+        h7_max_pct: worst_order_pct(r, 7),
+        cap_core_temp_c: r
+            .ratings
+            .capacitor
+            .as_ref()
+            .map(|c| c.core_temp_c)
+            .unwrap_or(0.0),
+        cap_life_h: r
+            .ratings
+            .capacitor
+            .as_ref()
+            .map(|c| c.life_estimate_h)
+            .unwrap_or(0.0),
     })
 }
 
@@ -138,13 +194,19 @@ fn summary_of(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) -
     let demand = results::demand_current(s, d, sim);
     // Folded as `summarize` folds `results.line_currents`.
     let (mut lc, mut thd_max, mut tdd_max) = ((0.0f64, 0.0f64), 0.0f64, 0.0f64);
+    let (mut h5, mut h7) = (0.0f64, 0.0f64);
     for &k in &r.line_i {
         let si = sig(k);
         let (i1, thd, tdd) = results::line_distortion(si, demand);
         lc = (lc.0.max(si.rms), lc.1.max(i1));
         thd_max = f64::max(thd_max, thd);
         tdd_max = f64::max(tdd_max, tdd);
+        h5 = h5.max(results::order_pct(&si.harmonics, 5));
+        h7 = h7.max(results::order_pct(&si.harmonics, 7));
     }
+    let cap = r
+        .i_cap
+        .map(|c| results::capacitor_thermal(s, sig(c).rms));
     let (_, total) = results::power_figures(sim);
     let v = sig(r.v_dc);
     let (ripple_rms, dom) = results::ripple(v, s.supply.f_hz);
@@ -169,6 +231,12 @@ fn summary_of(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) -
         device_v_peak_v: worst_v,
         cap_i_rms_a: r.i_cap.map(|c| sig(c).rms).unwrap_or(0.0),
         textbook_v_dc_v: tb.vd_v,
+        v_dc_min_v: v.min,
+        device_i_avg_a: devices.iter().map(|d| d.i_avg_a).fold(0.0, f64::max),
+        h5_max_pct: h5,
+        h7_max_pct: h7,
+        cap_core_temp_c: cap.map(|c| c.core).unwrap_or(0.0),
+        cap_life_h: cap.map(|c| c.life).unwrap_or(0.0),
     }
 }
 

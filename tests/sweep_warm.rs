@@ -57,7 +57,7 @@ fn warm_matches_cold(
         .into_iter()
         .map(|x| point(s, path, x))
         .collect();
-    let mut scale = [0.0f64; 19];
+    let mut scale = [0.0f64; SUMMARY_FIELDS.len()];
     for p in &cold {
         let c = p
             .summary
