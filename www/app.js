@@ -524,8 +524,9 @@
     if (fold) fold.open = true; // never hide a marked field
   }
 
-  // The engine throws "field.path: reason"; put the reason beside that field.
-  function showEngineError(text, scenario) {
+  // The engine throws "field.path: reason": the field's input (or null) and
+  // the reason.
+  function engineErrorField(text, scenario) {
     const msg = String(text);
     const i = msg.indexOf(": ");
     const path = (i > 0 ? msg.slice(0, i) : "").replace(/\[(\d+)\]/g, ".$1");
@@ -546,8 +547,24 @@
         })
         .sort((a, b) => (b.getAttribute("data-path") || "").length - (a.getAttribute("data-path") || "").length)[0];
     }
+    return { target: target || null, reason };
+  }
+
+  // Put the engine's reason beside its field.
+  function showEngineError(text, scenario) {
+    const { target, reason } = engineErrorField(text, scenario);
     if (target) markInvalid(target, inFieldUnits(reason, specOf(target)));
-    else $("#input-error").textContent = msg;
+    else $("#input-error").textContent = String(text);
+  }
+
+  // The engine's error as a sentence for the user: the field's label, and the
+  // refused value in the field's unit ("Bus capacitance: -1000 µF is out of
+  // range: ..."), as the form says it beside the field.
+  function engineErrorText(text, scenario) {
+    const { target, reason } = engineErrorField(text, scenario);
+    if (!target) return String(text);
+    const f = specOf(target);
+    return (f.label || target.id) + ": " + inFieldUnits(reason, f);
   }
 
   // The engine states the value it refused in SI ("-0.001 is out of range");
@@ -1047,20 +1064,27 @@
     host.replaceChildren(f);
   }
 
-  // The inputs as a table, for the printed report.
-  function renderPrintInputs() {
-    const body = el("tbody");
-    for (const e of activeInputs()) {
+  // The inputs as typed: [{id, label, value, unit}] (the printed report's
+  // table, the base case named in a sweep's CSV).
+  function inputRows() {
+    return activeInputs().map((e) => {
       const f = specOf(e);
-      let label = f.label || e.id;
       let value;
       if (e.tagName === "SELECT") value = e.options[e.selectedIndex] ? e.options[e.selectedIndex].textContent : e.value;
       else if (e.type === "checkbox") value = e.checked ? "yes" : "no";
       else value = e.value;
+      return { id: e.id, label: f.label || e.id, value, unit: f.unit || "" };
+    });
+  }
+
+  // The inputs as a table, for the printed report.
+  function renderPrintInputs() {
+    const body = el("tbody");
+    for (const r of inputRows()) {
       const tr = el("tr");
-      tr.appendChild(el("th", { scope: "row" }, label));
-      tr.appendChild(el("td", null, value));
-      tr.appendChild(el("td", { class: "unit" }, f.unit || ""));
+      tr.appendChild(el("th", { scope: "row" }, r.label));
+      tr.appendChild(el("td", null, r.value));
+      tr.appendChild(el("td", { class: "unit" }, r.unit));
       body.appendChild(tr);
     }
     const t = el("table", { class: "figures" });
@@ -1367,7 +1391,80 @@
     cap_i_rms_a: ["Capacitor ripple current RMS", "A"],
     textbook_v_dc_v: ["DC voltage, textbook", "V"],
   };
-  let sweep = null; // {path, label, unit, scale, xs, points, running, cancel}
+  // {path, label, unit (plotted, SI), st, xs, points, running, cancel, key,
+  // state ("done" | "cancelled"), stale, info, inputs, shownUnit, shownScale, slug}
+  let sweep = null;
+
+  // JSON with the keys in order, so that the same scenario reads the same.
+  function canonical(v) {
+    if (Array.isArray(v)) return "[" + v.map(canonical).join(",") + "]";
+    if (v && typeof v === "object") {
+      return "{" + Object.keys(v).sort().map((k) => JSON.stringify(k) + ":" + canonical(v[k])).join(",") + "}";
+    }
+    return JSON.stringify(v === undefined ? null : v);
+  }
+
+  // What a sweep's figures depend on: the scenario as the engine's sweep
+  // takes it (src/sweep.rs, base_scenario: no power-up transient, no fix
+  // search), without the case's name and notes, and without the varied field
+  // (every point sets it) -- except in a sweep of the load when the rating
+  // is taken from the load: the base case's load then sets the rating every
+  // point keeps.
+  function sweepKey(scenario, path) {
+    const s = JSON.parse(JSON.stringify(scenario));
+    delete s.name;
+    delete s.notes;
+    if (s.analysis) s.analysis.transient_cycles = 0;
+    if (s.compliance) s.compliance.search_fixes = false;
+    const ratingFromLoad = path.startsWith("dc.load.") && !(get(s, "analysis.rated_power_w") > 0);
+    if (!ratingFromLoad) setPath(s, path, null);
+    return canonical(s);
+  }
+
+  // A sweep shown for inputs other than the form's is marked out of date (on
+  // screen: a note and the plot greyed; in print: left out, with a note),
+  // and current again when the inputs are back to the sweep's.  Called by
+  // compute() on every change of the form and at the end of a sweep.
+  function checkSweep(scenario, errors) {
+    if (!sweep || sweep.running) return;
+    // a field the page cannot read: the form no longer says what the sweep
+    // was run for (the varied field excepted: every point sets it)
+    const unread = errors.some((e) => e.input.id !== sweep.field);
+    const stale = unread || sweepKey(scenario, sweep.path) !== sweep.key;
+    sweep.stale = stale;
+    $("#panel-sweep").setAttribute("data-state", stale ? "stale" : sweep.state);
+    $("#sweep-stale").hidden = !stale;
+    $("#sweep-stale-print").textContent = stale
+      ? "This sweep was computed for other inputs than those listed in this report, so its plot is left out. Run it again to include it."
+      : "";
+  }
+
+  // An ASCII file-name part from a label: "Bus capacitance" -> "bus-capacitance".
+  function slug(text) {
+    const t = String(text)
+      .normalize("NFKD")
+      .replace(/[\u0300-\u036f]/g, "")
+      .toLowerCase()
+      .replace(/[^a-z0-9]+/g, "-")
+      .replace(/^-+|-+$/g, "");
+    return t || "field";
+  }
+
+  // The CSV's first lines: what was varied and the base case it was varied on.
+  function sweepComments(ylabel, yunit) {
+    const ver = ($("#version") || {}).textContent || "";
+    const name = sweep.inputs.find((r) => r.id === "case_name");
+    const notes = sweep.inputs.find((r) => r.id === "case_notes");
+    // (the varied field is the first column; a sweep computes no power-up)
+    const skip = new Set(["case_name", "case_notes", "transient_cycles", sweep.field]);
+    const others = sweep.inputs.filter((r) => !skip.has(r.id));
+    const lines = [
+      `Rectifield ${ver} sweep, computed ${sweep.when}. Varied: ${sweep.info}. Plotted: ${ylabel}${yunit ? " (" + yunit + ")" : ""}.`,
+      `Base case${name && name.value ? ' "' + name.value + '"' : ""}: ` + others.map((r) => `${r.label} = ${r.value}${r.unit ? " " + r.unit : ""}`).join("; "),
+    ];
+    if (notes && notes.value.trim()) lines.push("Notes: " + notes.value.trim());
+    return lines;
+  }
 
   function sweepableFields() {
     return activeInputs().filter((e) => e.getAttribute("inputmode") === "decimal" && !specOf(e).harm && !/\.\d+$/.test(e.getAttribute("data-path")) && !specOf(e).int);
@@ -1698,7 +1795,32 @@
     const xs = [];
     const st = f.storeScale || 1; // the scenario holds this field in MVA, kA or kVA
     for (let i = 0; i < n.value; i++) xs.push((from.value + ((to.value - from.value) * i) / (n.value - 1)) / st);
-    sweep = { path, label: f.label, unit: f.base || "", st, xs, points: [], running: true, cancel: false };
+    const shownScale = f.scale || 1;
+    const inUnit = (v) => fmt(Number((v / shownScale).toPrecision(12)), 12);
+    sweep = {
+      path,
+      field: input.id,
+      label: f.label,
+      unit: f.base || "",
+      shownUnit: f.unit || "",
+      shownScale,
+      slug: slug(f.label),
+      st,
+      xs,
+      points: [],
+      running: true,
+      cancel: false,
+      key: sweepKey(scenario, path),
+      state: "running",
+      stale: false,
+      inputs: inputRows(),
+      when: new Date().toISOString().slice(0, 16).replace("T", " "),
+      range: `${f.label} from ${inUnit(from.value)} to ${inUnit(to.value)}${f.unit ? " " + f.unit : ""}, ${xs.length} points`,
+    };
+    sweep.info = sweep.range;
+    $("#sweep-stale").hidden = true;
+    $("#sweep-stale-print").textContent = "";
+    $("#sweep-info").textContent = "";
     const prog = $("#sweep-progress");
     prog.max = xs.length;
     prog.value = 0;
@@ -1728,16 +1850,28 @@
       () => sweep.cancel,
     );
     sweep.points = run.points.filter(Boolean);
+    // a failed point's reason as the form says it: the field's label, the
+    // refused value in the field's unit
+    for (const p of sweep.points) if (!p.summary) p.reason = engineErrorText(p.error || "not computed", scenario);
     const failed = sweep.points.filter((p) => !p.summary).length;
     sweep.running = false;
     $("#sweep-cancel").disabled = true;
     $("#sweep-run").disabled = false;
     prog.hidden = true;
     const cancelled = sweep.cancel && sweep.points.length < xs.length;
-    $("#panel-sweep").setAttribute("data-state", cancelled ? "cancelled" : "done");
+    sweep.state = cancelled ? "cancelled" : "done";
+    $("#panel-sweep").setAttribute("data-state", sweep.state);
     msg.textContent =
       (cancelled ? `Cancelled after ${sweep.points.length} of ${xs.length} points.` : `Done: ${xs.length} points.`) +
-      (failed ? ` ${failed} point(s) could not be computed (${(sweep.points.find((p) => !p.summary) || {}).error || ""}).` : "");
+      (failed ? ` ${failed} point(s) could not be computed (${(sweep.points.find((p) => !p.summary) || {}).reason || ""}).` : "");
+    sweep.info =
+      sweep.range +
+      (cancelled ? ` (cancelled after ${sweep.points.length})` : "") +
+      (failed ? `; ${failed} could not be computed` : "");
+    $("#sweep-info").textContent = "Varied: " + sweep.info + ".";
+    // inputs changed while it ran: out of date at once
+    const now = buildScenario();
+    checkSweep(now.scenario, now.errors);
     renderTab("sweep");
   }
 
@@ -1752,11 +1886,17 @@
     const pts = sweep.points;
     plots.sweep = PLOT.create(host, {
       title: `Sweep of ${sweep.label}`,
-      name: "rectifield-sweep",
-      x: { label: sweep.label, unit: sweep.unit, values: pts.map((p) => p.x * sweep.st) },
-      series: [{ label: ylabel, unit: yunit, scale: "y", values: pts.map((p) => (p.summary ? p.summary[yk] : null)), color: colors().a, width: 2.25 }],
+      name: "rectifield-sweep-" + sweep.slug,
+      // plotted in SI (the axis writes the prefixes); the CSV in the field's unit
+      x: { label: sweep.label, unit: sweep.unit, values: pts.map((p) => p.x * sweep.st), csv: { unit: sweep.shownUnit, scale: sweep.shownScale } },
+      series: [{ label: ylabel, unit: yunit, scale: "y", values: pts.map((p) => (p.summary ? p.summary[yk] : null)), color: colors().a, width: 2.25, markers: true }],
       height: 320,
       yLabels: { y: ylabel + (yunit ? ` (${yunit})` : "") },
+      csv: {
+        digits: 12,
+        comments: sweepComments(ylabel, yunit),
+        notes: { label: "Error", values: pts.map((p) => (p.summary ? "" : p.reason || p.error || "not computed")) },
+      },
     });
   }
 
@@ -1790,6 +1930,7 @@
   function compute() {
     clearMessages();
     const { scenario, errors } = buildScenario();
+    checkSweep(scenario, errors);
     saveSession(scenario);
     renderSchematic(scenario);
     if (errors.length) {

@@ -34,12 +34,31 @@
     return b;
   }
 
+  // Markers only where the points in view are at least 12 px apart (a
+  // 2000-point sweep would draw a thick line of dots; zoomed in they appear).
+  function markersShow(u) {
+    const idxs = u.series[0].idxs;
+    if (!idxs || idxs[1] <= idxs[0]) return true;
+    const xd = u.data[0];
+    const dim = Math.abs(u.valToPos(xd[idxs[1]], "x", true) - u.valToPos(xd[idxs[0]], "x", true));
+    return idxs[1] - idxs[0] <= dim / (12 * (root.devicePixelRatio || 1));
+  }
+
   /**
    * Make a plot in `host` (emptied first).
-   * spec: { title, name (file stem), x: {label, unit, values},
-   *         series: [{label, unit, values, color, dash, width, bars, scale}],
-   *         height, yLabels: {scaleKey: text}, xIsOrder: bool }
+   * spec: { title, name (file stem), x: {label, unit, values, csv},
+   *         series: [{label, unit, values, color, dash, width, bars, scale, markers, csv}],
+   *         height, yLabels: {scaleKey: text}, xIsOrder: bool,
+   *         csv: {comments: [text], digits, notes: {label, values}} }
    * Series with the same `scale` share a y axis (first two scales get axes).
+   * `markers`: a dot at each data point (for coarse data such as a sweep).
+   * CSV export (all optional): `x.csv` / a series' `csv` = {unit, scale}
+   * writes that column as value / scale under that unit (the plot keeps SI
+   * values for its prefixed axes, a file is read in the units the user
+   * works in); `csv.digits` rounds every number to that many significant
+   * digits (no float noise such as 0.0020000000000000005); `csv.comments`
+   * are written first, each as a line starting "# "; `csv.notes` is a last,
+   * text column (e.g. why a point has no value).
    */
   function create(host, spec) {
     host.replaceChildren();
@@ -109,7 +128,7 @@
         stroke: s.color,
         width: s.width || 1.75,
         value: (u, v) => (v === null || v === undefined ? "\u2014" : fmt(v, s.unit, 4)),
-        points: { show: false },
+        points: s.markers ? { show: markersShow, size: 7, width: 1, stroke: s.color, fill: s.color } : { show: false },
       };
       if (s.dash) o.dash = s.dash;
       if (s.bars) {
@@ -220,14 +239,27 @@
     }
 
     function csvText() {
-      const head = [
-        `${spec.x.label}${xUnit ? " (" + xUnit + ")" : ""}`,
-        ...spec.series.map((s) => `${s.label}${s.unit ? " (" + s.unit + ")" : ""}`),
+      const opt = spec.csv || {};
+      // each column: its header, unit and divisor in the file
+      const cols = [
+        { label: spec.x.label, unit: xUnit, ...(spec.x.csv || {}) },
+        ...spec.series.map((s) => ({ label: s.label, unit: s.unit, ...(s.csv || {}) })),
       ];
-      const q = (t) => (/[",\n]/.test(t) ? '"' + t.replace(/"/g, '""') + '"' : t);
-      const lines = [head.map(q).join(",")];
+      const head = cols.map((c) => `${c.label}${c.unit ? " (" + c.unit + ")" : ""}`);
+      const notes = opt.notes && opt.notes.values ? opt.notes : null;
+      if (notes) head.push(notes.label || "Note");
+      const q = (t) => (/[",\r\n]/.test(t) ? '"' + t.replace(/"/g, '""') + '"' : t);
+      const num = (v, c) => {
+        if (v === null || v === undefined || !Number.isFinite(v)) return "";
+        const w = c.scale ? v / c.scale : v;
+        return String(opt.digits ? Number(w.toPrecision(opt.digits)) : w);
+      };
+      const lines = (opt.comments || []).map((t) => "# " + String(t).replace(/[\r\n]+/g, " "));
+      lines.push(head.map(q).join(","));
       for (let i = 0; i < xs.length; i++) {
-        lines.push(data.map((col) => (col[i] === null || col[i] === undefined ? "" : String(col[i]))).join(","));
+        const row = data.map((col, k) => num(col[i], cols[k]));
+        if (notes) row.push(q(notes.values[i] ? String(notes.values[i]) : ""));
+        lines.push(row.join(","));
       }
       return lines.join("\n") + "\n";
     }
@@ -237,11 +269,15 @@
     }
 
     if (!spec.xIsOrder) {
-      bar.appendChild(button("+", "Zoom in (time axis)", () => zoom(0.5)));
-      bar.appendChild(button("\u2212", "Zoom out (time axis)", () => zoom(2)));
-      bar.appendChild(button("\u25c0", "Pan left", () => pan(-0.25)));
-      bar.appendChild(button("\u25b6", "Pan right", () => pan(0.25)));
-      bar.appendChild(button("Reset", "Show the whole axis", reset));
+      // named after the plot's own x axis ("time", "bus capacitance", ...);
+      // a label's first letter is lowered unless it starts an abbreviation (X/R, RMS)
+      const xl = String(spec.x.label || "x");
+      const axis = (/^[A-Z][a-z]/.test(xl) ? xl[0].toLowerCase() + xl.slice(1) : xl) + " axis";
+      bar.appendChild(button("+", `Zoom in along the ${axis}`, () => zoom(0.5)));
+      bar.appendChild(button("\u2212", `Zoom out along the ${axis}`, () => zoom(2)));
+      bar.appendChild(button("\u25c0", `Pan left along the ${axis}`, () => pan(-0.25)));
+      bar.appendChild(button("\u25b6", `Pan right along the ${axis}`, () => pan(0.25)));
+      bar.appendChild(button("Reset", `Show the whole ${axis}`, reset));
     }
     const hint = document.createElement("span");
     hint.className = "plot-hint";

@@ -719,7 +719,8 @@ for (const b of BROWSERS) {
       await captureDownloads();
       await page.click("#plot-sweep .plot-tools button:last-child");
       await page.waitForFunction(() => window.__saved.length > 0);
-      const sw = (await page.evaluate(() => window.__saved[0])).trim().split("\n").slice(1).map((l) => l.split(",").map(Number));
+      // (the sweep's CSV begins with "# " lines naming the base case)
+      const sw = (await page.evaluate(() => window.__saved[0])).trim().split("\n").filter((l) => !l.startsWith("#")).slice(1).map((l) => l.split(",").map(Number));
       assert.equal(sw.length, 5);
       // the DC bus rises with the line voltage, close to in proportion (Vdo = 1.35 V_LL)
       for (let i = 1; i < sw.length; i++) assert.ok(sw[i][1] > sw[i - 1][1], `sweep not rising at ${sw[i][0]} V`);
