@@ -204,9 +204,7 @@ fn summary_of(s: &Scenario, d: &Derived, sim: &SimResult, tb: &TextbookResult) -
         h5 = h5.max(results::order_pct(&si.harmonics, 5));
         h7 = h7.max(results::order_pct(&si.harmonics, 7));
     }
-    let cap = r
-        .i_cap
-        .map(|c| results::capacitor_thermal(s, sig(c).rms));
+    let cap = r.i_cap.map(|c| results::capacitor_thermal(s, sig(c).rms));
     let (_, total) = results::power_figures(sim);
     let v = sig(r.v_dc);
     let (ripple_rms, dom) = results::ripple(v, s.supply.f_hz);
