@@ -1192,7 +1192,7 @@ pub fn search_fixes(
     let mut tried = Vec::new();
     let steps = |kind: &str, list: &[f64], tried: &mut Vec<FixCandidate>| -> Option<usize> {
         let mut list = list.to_vec();
-        list.sort_by(f64::total_cmp);
+        crate::sim::sort_small_by(&mut list, f64::total_cmp);
         for z in list {
             let mut s2 = s.clone();
             s2.compliance.search_fixes = false;

@@ -1073,7 +1073,7 @@ fn predicted(run: &Run, s: &Scenario, id: SignatureId) -> Predicted {
         .filter(|h| h.order > 0 && h.rms >= largest / SQRT_2 && largest > 0.0)
         .map(|h| (h.rms, h.order as f64 * f))
         .collect();
-    near.sort_by(|a, b| b.0.total_cmp(&a.0));
+    crate::sim::sort_small_by(&mut near, |a, b| b.0.total_cmp(&a.0));
     let i = sim.roles.line_i.map(|k| sim.signals[k].rms);
     let pc = sim.roles.pcc_v;
     let mut ll = [0.0; 3];
@@ -1414,7 +1414,7 @@ fn verdict(sigs: &[Signature]) -> Verdict {
             distance: s.distance.as_ref().map(|d| d.value),
         })
         .collect();
-    ranking.sort_by(|a, b| {
+    crate::sim::sort_small_by(&mut ranking, |a, b| {
         a.distance
             .unwrap_or(f64::INFINITY)
             .total_cmp(&b.distance.unwrap_or(f64::INFINITY))

@@ -1390,6 +1390,12 @@
     device_v_peak_v: ["Device peak voltage", "V"],
     cap_i_rms_a: ["Capacitor ripple current RMS", "A"],
     textbook_v_dc_v: ["DC voltage, textbook", "V"],
+    v_dc_min_v: ["DC bus, lowest", "V"],
+    device_i_avg_a: ["Device average current", "A"],
+    h5_max_pct: ["5th harmonic, worst phase", "%"],
+    h7_max_pct: ["7th harmonic, worst phase", "%"],
+    cap_core_temp_c: ["Capacitor core temperature", "°C"],
+    cap_life_h: ["Capacitor life estimate", "h"],
   };
   // {path, label, unit (plotted, SI), st, xs, points, running, cancel, key,
   // state ("done" | "cancelled"), stale, info, inputs, shownUnit, shownScale, slug}
@@ -1854,6 +1860,9 @@
     // refused value in the field's unit
     for (const p of sweep.points) if (!p.summary) p.reason = engineErrorText(p.error || "not computed", scenario);
     const failed = sweep.points.filter((p) => !p.summary).length;
+    // computed points the engine warned about (a model change, an unstable
+    // periodic solution): counted here, each point's warnings in the CSV
+    const warned = sweep.points.filter((p) => p.summary && p.warnings && p.warnings.length);
     sweep.running = false;
     $("#sweep-cancel").disabled = true;
     $("#sweep-run").disabled = false;
@@ -1863,7 +1872,8 @@
     $("#panel-sweep").setAttribute("data-state", sweep.state);
     msg.textContent =
       (cancelled ? `Cancelled after ${sweep.points.length} of ${xs.length} points.` : `Done: ${xs.length} points.`) +
-      (failed ? ` ${failed} point(s) could not be computed (${(sweep.points.find((p) => !p.summary) || {}).reason || ""}).` : "");
+      (failed ? ` ${failed} point(s) could not be computed (${(sweep.points.find((p) => !p.summary) || {}).reason || ""}).` : "") +
+      (warned.length ? ` ${warned.length} point(s) carry a warning (first, at ${fmt((warned[0].x * sweep.st) / sweep.shownScale, 4)} ${sweep.shownUnit}: ${warned[0].warnings[0]}); all are in the CSV.` : "");
     sweep.info =
       sweep.range +
       (cancelled ? ` (cancelled after ${sweep.points.length})` : "") +
@@ -1895,7 +1905,10 @@
       csv: {
         digits: 12,
         comments: sweepComments(ylabel, yunit),
-        notes: { label: "Error", values: pts.map((p) => (p.summary ? "" : p.reason || p.error || "not computed")) },
+        notes: {
+          label: "Error or warnings",
+          values: pts.map((p) => (p.summary ? (p.warnings || []).join(" | ") : p.reason || p.error || "not computed")),
+        },
       },
     });
   }

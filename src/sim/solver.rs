@@ -761,7 +761,7 @@ impl Engine {
                     _ => None,
                 }),
         );
-        gate_times.sort_by(|a, b| a.total_cmp(b));
+        super::sort_small_by(&mut gate_times, |a, b| a.total_cmp(b));
         gate_times.dedup_by(|a, b| (*a - *b).abs() < 1e-15 * period_s);
         let mults: Option<Vec<u64>> = circuit
             .osc_omega
