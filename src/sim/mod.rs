@@ -2197,7 +2197,7 @@ mod tests {
                     .collect();
                 let (mut a, mut b) = (v.clone(), v);
                 sort_small_by(&mut a, |x, y| x.0.cmp(&y.0));
-                b.sort_by(|x, y| x.0.cmp(&y.0));
+                b.sort_by_key(|x| x.0);
                 assert_eq!(a, b);
             }
         }
