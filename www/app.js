@@ -1472,8 +1472,17 @@
     return lines;
   }
 
+  // (The precharge bypass's time and level act only on the power-up
+  // transient, which a sweep point does not compute: left out.)
   function sweepableFields() {
-    return activeInputs().filter((e) => e.getAttribute("inputmode") === "decimal" && !specOf(e).harm && !/\.\d+$/.test(e.getAttribute("data-path")) && !specOf(e).int);
+    return activeInputs().filter(
+      (e) =>
+        e.getAttribute("inputmode") === "decimal" &&
+        !specOf(e).harm &&
+        !/\.\d+$/.test(e.getAttribute("data-path")) &&
+        !/^dc\.precharge_bypass_/.test(e.getAttribute("data-path")) &&
+        !specOf(e).int,
+    );
   }
 
   function fillSweepChoices() {

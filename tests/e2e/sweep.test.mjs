@@ -279,6 +279,14 @@ for (const b of BROWSERS) {
       assert.doesNotMatch(body[4], /Floquet|current constant/, body[4]);
     });
 
+    test("the Vary list leaves out fields a sweep point cannot show", async () => {
+      // The precharge bypass's time and level act only on the power-up
+      // transient, which sweep points do not compute.
+      const ids = await page.$$eval("#sweep-field option", (os) => os.map((o) => o.value));
+      assert.ok(ids.includes("cap_f") && ids.includes("precharge_r_ohm"), ids.join(" "));
+      assert.ok(!ids.includes("precharge_bypass_s") && !ids.includes("precharge_bypass_pu"), ids.join(" "));
+    });
+
     test("the sweep plot's zoom buttons name its x axis", async () => {
       const titles = await page.$$eval("#plot-sweep .plot-tools button", (bs) => bs.map((x) => x.title));
       const zoom = titles.filter((t) => /zoom/i.test(t));
