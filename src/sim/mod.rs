@@ -774,9 +774,12 @@ fn explain_failure(s: &Scenario, d: &Derived, e: SolveError) -> SolveError {
             let need = l / (c * r_cpl);
             if r_damp < need {
                 let f_res = 1.0 / (2.0 * PI * (l * c).sqrt());
+                // (A rule of thumb, not a proof that this is why the solve
+                // failed: the solver's own reason is kept beside it.)
                 return SolveError {
                     reason: format!(
-                        "no periodic steady state: the DC-link filter (resonance near {f_res:.0} Hz) feeding a constant-power load is unstable"
+                        "no periodic steady state: the DC-link filter (resonance near {f_res:.0} Hz) feeding a constant-power load is likely unstable (the solver's own report: {})",
+                        e.reason
                     ),
                     hint: format!(
                         "the load's negative incremental resistance needs a series damping of about {need:.3} ohm against {r_damp:.3} ohm present; add damping (a damped choke or an RC across the bus), change the choke or capacitance, or model the load as a resistor"
