@@ -205,6 +205,7 @@ fn instr(args: &[String]) -> Value {
                 from,
                 to,
                 points: n,
+                log: false,
             };
             let xs = rectifield::sweep::xs(&spec);
             assert!(start + k <= n, "--instr sweep: START + K > N");
@@ -266,6 +267,7 @@ fn scaling(path: &str, budget: Duration) -> Value {
             from,
             to,
             points,
+            log: false,
         };
         let mut failed = 0;
         let reps = match points {

@@ -8,7 +8,7 @@ const HELP: &str =
 
 usage:
   rectifield solve FILE [--json]                 analyse a scenario (FILE, or - for standard input)
-  rectifield sweep FILE --vary PATH=FROM:TO:N    CSV of the headline results over a sweep
+  rectifield sweep FILE --vary PATH=FROM:TO:N[:log]  CSV of the headline results over a sweep
   rectifield check FILE [--json]                 grid-compliance verdict (exit status 1 when it fails)
   rectifield field FILE [--json]                 field check: expected DC bus and the faults that fit the readings
   rectifield examples DIR                        write the built-in example scenarios to DIR
@@ -32,6 +32,8 @@ const HELP_SWEEP: &str = "usage: rectifield sweep FILE --vary PATH=FROM:TO:N
           source.reactor.z_pct, bridge.alpha_deg, supply.v_ll_rms_v,
           supply.phase_magnitude_pu.1
   FROM:TO:N  N evenly spaced values from FROM to TO (N = 1..10000)
+  FROM:TO:N:log  N values in equal ratios (FROM and TO above zero): a
+          capacitance or an inductance across decades
   prints CSV: the varied value, then the headline results; a point that cannot
   be solved has its reason in the last column";
 

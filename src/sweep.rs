@@ -296,6 +296,10 @@ pub struct SweepSpec {
     pub from: f64,
     pub to: f64,
     pub points: usize,
+    /// Steps in equal ratios (FROM and TO both above zero) instead of equal
+    /// differences: a capacitance or an inductance across decades.
+    #[serde(default)]
+    pub log: bool,
 }
 
 /// One point of a sweep.
@@ -317,10 +321,15 @@ pub struct SweepPoint {
 pub fn parse_vary(text: &str) -> Result<SweepSpec, String> {
     let (path, range) = text
         .split_once('=')
-        .ok_or("--vary: expected PATH=FROM:TO:N")?;
+        .ok_or("--vary: expected PATH=FROM:TO:N or PATH=FROM:TO:N:log")?;
     let parts: Vec<&str> = range.split(':').collect();
-    if parts.len() != 3 {
-        return Err("--vary: expected PATH=FROM:TO:N".into());
+    let log = match parts.get(3).map(|s| s.trim()) {
+        None => false,
+        Some("log") if parts.len() == 4 => true,
+        _ => return Err("--vary: expected PATH=FROM:TO:N or PATH=FROM:TO:N:log".into()),
+    };
+    if parts.len() < 3 {
+        return Err("--vary: expected PATH=FROM:TO:N or PATH=FROM:TO:N:log".into());
     }
     let num = |s: &str, what: &str| -> Result<f64, String> {
         s.trim()
@@ -336,11 +345,18 @@ pub fn parse_vary(text: &str) -> Result<SweepSpec, String> {
     if !(1..=10_000).contains(&points) {
         return Err("--vary: N must be between 1 and 10000".into());
     }
+    let (from, to) = (num(parts[0], "FROM")?, num(parts[1], "TO")?);
+    if log && !(from > 0.0 && to > 0.0) {
+        return Err(format!(
+            "--vary: steps in equal ratios (log) need FROM and TO above zero: {from} and {to}"
+        ));
+    }
     Ok(SweepSpec {
         path: path.trim().to_string(),
-        from: num(parts[0], "FROM")?,
-        to: num(parts[1], "TO")?,
+        from,
+        to,
         points,
+        log,
     })
 }
 
@@ -387,8 +403,20 @@ pub fn xs(spec: &SweepSpec) -> Vec<f64> {
     if spec.points == 1 {
         return vec![spec.from];
     }
+    let n = (spec.points - 1) as f64;
+    if spec.log && spec.from > 0.0 && spec.to > 0.0 {
+        // FROM (TO/FROM)^(i/(N-1)), the ends exact.
+        let r = (spec.to / spec.from).ln();
+        return (0..spec.points)
+            .map(|i| match i {
+                0 => spec.from,
+                _ if i == spec.points - 1 => spec.to,
+                _ => spec.from * (r * i as f64 / n).exp(),
+            })
+            .collect();
+    }
     (0..spec.points)
-        .map(|i| spec.from + (spec.to - spec.from) * i as f64 / (spec.points - 1) as f64)
+        .map(|i| spec.from + (spec.to - spec.from) * i as f64 / n)
         .collect()
 }
 
@@ -546,6 +574,25 @@ pub fn to_csv(spec: &SweepSpec, pts: &[SweepPoint]) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// `FROM:TO:N:log`: equal ratios between neighbours, the ends exact;
+    /// refused with a bound at or below zero; plain `FROM:TO:N` unchanged.
+    #[test]
+    fn log_steps_are_in_equal_ratios() {
+        let spec = parse_vary("dc.cap_f=0.0001:0.1:4:log").unwrap();
+        assert!(spec.log);
+        let x = xs(&spec);
+        assert_eq!(x.len(), 4);
+        assert_eq!((x[0], x[3]), (0.0001, 0.1));
+        for w in x.windows(2) {
+            assert!((w[1] / w[0] - 10.0).abs() < 1e-12, "{x:?}");
+        }
+        assert!(parse_vary("dc.cap_f=0:0.1:4:log").is_err());
+        assert!(parse_vary("dc.cap_f=0.001:0.1:4:lin").is_err());
+        let lin = parse_vary("dc.cap_f=0:0.3:4").unwrap();
+        assert!(!lin.log);
+        assert!((xs(&lin)[1] - 0.1).abs() < 1e-15);
+    }
 
     #[test]
     fn a_load_sweep_keeps_the_rating_the_base_load_gave() {

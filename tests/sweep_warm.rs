@@ -50,6 +50,7 @@ fn warm_matches_cold(
         from,
         to,
         points: n,
+        log: false,
     };
     let warm = sweep(s, &spec).expect("sweep");
     assert_eq!(warm.len(), n);
@@ -295,6 +296,7 @@ fn warm_sweeps_of_random_circuits_match_cold_points() {
             from: 0.9 * v,
             to: 1.1 * v,
             points: 5,
+            log: false,
         };
         let warm = sweep(&s, &spec).expect("sweep");
         for (w, x) in warm.iter().zip(rectifield::sweep::xs(&spec)) {

@@ -1809,7 +1809,18 @@
     const path = input.getAttribute("data-path");
     const xs = [];
     const st = f.storeScale || 1; // the scenario holds this field in MVA, kA or kVA
-    for (let i = 0; i < n.value; i++) xs.push((from.value + ((to.value - from.value) * i) / (n.value - 1)) / st);
+    // Equal ratios (a capacitance or an inductance across decades): both
+    // ends above zero; the ends exact, as the CLI's FROM:TO:N:log.
+    const log = $("#sweep-steps").value === "log";
+    if (log && !(from.value > 0 && to.value > 0)) {
+      msg.textContent = "Steps in equal ratios need From and To above zero.";
+      return;
+    }
+    for (let i = 0; i < n.value; i++) {
+      const t = i / (n.value - 1);
+      const v = !log ? from.value + (to.value - from.value) * t : i === 0 ? from.value : i === n.value - 1 ? to.value : from.value * Math.exp(Math.log(to.value / from.value) * t);
+      xs.push(v / st);
+    }
     const shownScale = f.scale || 1;
     const inUnit = (v) => fmt(Number((v / shownScale).toPrecision(12)), 12);
     sweep = {
@@ -1830,7 +1841,7 @@
       stale: false,
       inputs: inputRows(),
       when: new Date().toISOString().slice(0, 16).replace("T", " "),
-      range: `${f.label} from ${inUnit(from.value)} to ${inUnit(to.value)}${f.unit ? " " + f.unit : ""}, ${xs.length} points`,
+      range: `${f.label} from ${inUnit(from.value)} to ${inUnit(to.value)}${f.unit ? " " + f.unit : ""}, ${xs.length} points${log ? " in equal ratios" : ""}`,
     };
     sweep.info = sweep.range;
     $("#sweep-stale").hidden = true;

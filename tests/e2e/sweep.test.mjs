@@ -279,6 +279,28 @@ for (const b of BROWSERS) {
       assert.doesNotMatch(body[4], /Floquet|current constant/, body[4]);
     });
 
+    test("steps in equal ratios: a capacitance across decades", async () => {
+      await page.select("#sweep-steps", "log");
+      try {
+        await runSweep("cap_f", "100", "10000", 3, "v_dc_ripple_pp_v");
+        const info = await page.$eval("#sweep-info", (e) => e.textContent);
+        assert.match(info, /from 100 to 10000 µF, 3 points in equal ratios/, info);
+        await captureDownloads();
+        assert.ok(await plotButton("CSV"), "no CSV button");
+        await page.waitForFunction(() => window.__saved.length > 0);
+        const csv = await page.evaluate(() => window.__saved[window.__saved.length - 1]);
+        const body = csv.trim().split("\n").filter((l) => !l.startsWith("#")).slice(1);
+        assert.deepEqual(body.map((r) => r.split(",")[0]), ["100", "1000", "10000"]);
+        // A bound at zero is refused with a reason.
+        await page.$eval("#sweep-from", (e) => (e.value = "0"));
+        await page.click("#sweep-run");
+        const msg = await page.$eval("#sweep-msg", (e) => e.textContent);
+        assert.match(msg, /equal ratios need From and To above zero/, msg);
+      } finally {
+        await page.select("#sweep-steps", "lin");
+      }
+    });
+
     test("the Vary list leaves out fields a sweep point cannot show", async () => {
       // The precharge bypass's time and level act only on the power-up
       // transient, which sweep points do not compute.
