@@ -166,6 +166,9 @@ pub fn cos_window_max(lo_deg: f64, hi_deg: f64) -> f64 {
     lo_deg.to_radians().cos().max(hi_deg.to_radians().cos())
 }
 
+/// A constant-power load above this multiple of the stated rating is warned.
+pub const OVER_RATING: f64 = 1.5;
+
 /// Check a scenario.  Returns the warnings for a legal scenario, or the
 /// first bad field.
 ///
@@ -545,6 +548,20 @@ pub fn validate(s: &Scenario) -> Result<Vec<String>, FieldError> {
             if dc.cap_f == 0.0 && *p_w > 0.0 {
                 warn.push("dc.load: a constant-power load with no bus capacitor is a negative resistance on the bridge; the solver may not settle (common practice: a drive bus always has a capacitor)".into());
             }
+            // A load far past the stated rating (a load sweep run on past
+            // it, or a slip of a factor of ten): the percent reactor and the
+            // demand current are on the rating.  1.5 x: a drive's usual
+            // short overload rating (common practice, from memory: 150 % for
+            // about a minute).
+            let rated = s.analysis.rated_power_w;
+            if rated > 0.0 && *p_w > OVER_RATING * rated {
+                warn.push(format!(
+                    "dc.load.p_w: the load, {:.1} kW, is {:.1} times the rating given ({:.1} kW, analysis.rated_power_w); the percent reactor and the demand current are on the rating, and a drive carries more than about 1.5 times its rating only briefly (common practice)",
+                    p_w / 1e3,
+                    p_w / rated,
+                    rated / 1e3
+                ));
+            }
         }
     }
 
@@ -817,6 +834,33 @@ pub fn validate(s: &Scenario) -> Result<Vec<String>, FieldError> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A constant-power load more than 1.5 times the stated rating is
+    /// warned (naming the field), one at the limit is not, and without a
+    /// stated rating (taken from the load) there is nothing to compare.
+    #[test]
+    fn a_load_far_past_the_rating_is_warned() {
+        let mut s = Scenario::default();
+        assert_eq!(s.analysis.rated_power_w, 45e3);
+        s.dc.load = DcLoad::ConstantPower { p_w: 90e3 };
+        let w = validate(&s).unwrap();
+        assert!(
+            w.iter()
+                .any(|x| x.starts_with("dc.load.p_w:") && x.contains("2.0 times the rating")),
+            "{w:?}"
+        );
+        s.dc.load = DcLoad::ConstantPower { p_w: 67.5e3 };
+        assert!(!validate(&s)
+            .unwrap()
+            .iter()
+            .any(|x| x.contains("times the rating")));
+        s.dc.load = DcLoad::ConstantPower { p_w: 90e3 };
+        s.analysis.rated_power_w = 0.0;
+        assert!(!validate(&s)
+            .unwrap()
+            .iter()
+            .any(|x| x.contains("times the rating")));
+    }
 
     #[test]
     fn defaults_and_examples_pass() {
