@@ -2170,12 +2170,14 @@ pub fn solve_periodic_from(
             res = run.x_end.iter().zip(&x0).map(|(a, b)| a - b).collect();
             rn = norm(&res);
         }
-        let m = match run.monodromy.take() {
-            Some(m) => {
-                last_m = Some(m.clone());
-                m
+        let taken = run.monodromy.take();
+        let fallback;
+        let m: &Mat = match &taken {
+            Some(m) => m,
+            None => {
+                fallback = Mat::identity(nx);
+                &fallback
             }
-            None => Mat::identity(nx),
         };
         let dxdp = run.dx_dparam.take().unwrap_or_else(|| vec![0.0; nx]);
         let mut a = Mat::identity(nx);
@@ -2183,6 +2185,10 @@ pub fn solve_periodic_from(
             for j in 0..nx {
                 a.add_at(i, j, -m.at(i, j));
             }
+        }
+        // Kept (moved, not copied) for the solution's stability check.
+        if taken.is_some() {
+            last_m = taken;
         }
         let rhs: Vec<f64> = res.iter().zip(&dxdp).map(|(r, d)| r + d * dp).collect();
         let delta = match Lu::new(&a) {
