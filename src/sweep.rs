@@ -109,6 +109,16 @@ impl Summary {
     }
 }
 
+/// The largest of a device figure over the bridge's devices (0 without any).
+fn worst_device(r: &results::Results, f: impl Fn(&results::DeviceRating) -> f64) -> f64 {
+    r.ratings.devices.iter().map(f).fold(0.0, f64::max)
+}
+
+/// A bus capacitor figure, 0 without a bus capacitor.
+fn capacitor_figure(r: &results::Results, f: impl Fn(&results::CapacitorFigures) -> f64) -> f64 {
+    r.ratings.capacitor.as_ref().map(f).unwrap_or(0.0)
+}
+
 /// The largest percentage of `order` over the line currents' rows.
 fn worst_order_pct(r: &results::Results, order: u32) -> f64 {
     r.line_currents
@@ -139,47 +149,17 @@ pub fn summarize(a: &Analysis) -> Option<Summary> {
         p_in_w: r.total.p_w,
         p_dc_w: r.dc.p_load_w,
         overlap_deg: r.dc.overlap_deg.unwrap_or(0.0),
-        device_i_peak_a: r
-            .ratings
-            .devices
-            .iter()
-            .map(|d| d.i_peak_a)
-            .fold(0.0, f64::max),
-        device_i_rms_a: r
-            .ratings
-            .devices
-            .iter()
-            .map(|d| d.i_rms_a)
-            .fold(0.0, f64::max),
+        device_i_peak_a: worst_device(r, |d| d.i_peak_a),
+        device_i_rms_a: worst_device(r, |d| d.i_rms_a),
         device_v_peak_v: r.ratings.worst_device_voltage_v,
-        cap_i_rms_a: r
-            .ratings
-            .capacitor
-            .as_ref()
-            .map(|c| c.i_rms_a)
-            .unwrap_or(0.0),
+        cap_i_rms_a: capacitor_figure(r, |c| c.i_rms_a),
         textbook_v_dc_v: a.textbook.vd_v,
         v_dc_min_v: r.dc.v_min_v,
-        device_i_avg_a: r
-            .ratings
-            .devices
-            .iter()
-            .map(|d| d.i_avg_a)
-            .fold(0.0, f64::max),
+        device_i_avg_a: worst_device(r, |d| d.i_avg_a),
         h5_max_pct: worst_order_pct(r, 5),
         h7_max_pct: worst_order_pct(r, 7),
-        cap_core_temp_c: r
-            .ratings
-            .capacitor
-            .as_ref()
-            .map(|c| c.core_temp_c)
-            .unwrap_or(0.0),
-        cap_life_h: r
-            .ratings
-            .capacitor
-            .as_ref()
-            .map(|c| c.life_estimate_h)
-            .unwrap_or(0.0),
+        cap_core_temp_c: capacitor_figure(r, |c| c.core_temp_c),
+        cap_life_h: capacitor_figure(r, |c| c.life_estimate_h),
     })
 }
 
