@@ -1,4 +1,7 @@
 // Shared launch settings for the e2e tests (Debian's Chromium and Firefox).
+import fs from "node:fs";
+import os from "node:os";
+import path from "node:path";
 import puppeteer from "puppeteer-core";
 
 // How long a browser may take to start (puppeteer's default is 30 s).  The
@@ -48,3 +51,19 @@ export const BROWSERS = [
       }),
   },
 ];
+
+// A fresh browser (its own profile directory) and a page with the test
+// timeout and viewport set, its console errors and page errors pushed to
+// `problems` (the test files assert the list stays empty).
+export async function openPage(b, { prefix, viewport, timeout, problems }) {
+  const profile = fs.mkdtempSync(path.join(os.tmpdir(), `${prefix}-${b.name}-`));
+  const browser = await b.launch(b.exe, profile);
+  const page = await browser.newPage();
+  page.setDefaultTimeout(timeout);
+  await page.setViewport(viewport);
+  page.on("console", (msg) => {
+    if (msg.type() === "error") problems.push(`console error: ${msg.text()}`);
+  });
+  page.on("pageerror", (err) => problems.push(`page error: ${err.message || err}`));
+  return { browser, page, profile };
+}

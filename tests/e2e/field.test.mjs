@@ -8,10 +8,9 @@
 import { test, before, after, describe } from "node:test";
 import assert from "node:assert/strict";
 import fs from "node:fs";
-import os from "node:os";
 import path from "node:path";
 import { pathToFileURL } from "node:url";
-import { BROWSERS } from "./browsers.mjs";
+import { BROWSERS, openPage } from "./browsers.mjs";
 
 const DIST = path.resolve(process.env.RECTIFIELD_DIST || "dist");
 const INDEX = path.join(DIST, "index.html");
@@ -27,15 +26,7 @@ for (const b of BROWSERS) {
 
     before(async () => {
       assert.ok(fs.existsSync(INDEX), `${INDEX} missing: run ./build.sh first`);
-      profile = fs.mkdtempSync(path.join(os.tmpdir(), `rectifield-field-${b.name}-`));
-      browser = await b.launch(b.exe, profile);
-      page = await browser.newPage();
-      page.setDefaultTimeout(TIMEOUT);
-      await page.setViewport({ width: 800, height: 1280 }); // a 10-inch tablet, portrait
-      page.on("console", (msg) => {
-        if (msg.type() === "error") problems.push(`console error: ${msg.text()}`);
-      });
-      page.on("pageerror", (err) => problems.push(`page error: ${err.message || err}`));
+      ({ browser, page, profile } = await openPage(b, { prefix: "rectifield-field", viewport: { width: 800, height: 1280 }, timeout: TIMEOUT, problems })); // a 10-inch tablet, portrait
       page.on("request", (req) => {
         const url = req.url();
         const self = url === INDEX_URL || url.startsWith(INDEX_URL + "#");

@@ -13,10 +13,9 @@
 import { test, before, after, describe } from "node:test";
 import assert from "node:assert/strict";
 import fs from "node:fs";
-import os from "node:os";
 import path from "node:path";
 import { pathToFileURL } from "node:url";
-import { BROWSERS } from "./browsers.mjs";
+import { BROWSERS, openPage } from "./browsers.mjs";
 
 const DIST = path.resolve(process.env.RECTIFIELD_DIST || "dist");
 const INDEX = path.join(DIST, "index.html");
@@ -33,15 +32,7 @@ for (const b of BROWSERS) {
 
     before(async () => {
       assert.ok(fs.existsSync(INDEX), `${INDEX} missing: run ./build.sh first`);
-      profile = fs.mkdtempSync(path.join(os.tmpdir(), `rectifield-sweep-${b.name}-`));
-      browser = await b.launch(b.exe, profile);
-      page = await browser.newPage();
-      page.setDefaultTimeout(TIMEOUT);
-      await page.setViewport({ width: 1180, height: 900 });
-      page.on("console", (msg) => {
-        if (msg.type() === "error") problems.push(`console error: ${msg.text()}`);
-      });
-      page.on("pageerror", (err) => problems.push(`page error: ${err.message || err}`));
+      ({ browser, page, profile } = await openPage(b, { prefix: "rectifield-sweep", viewport: { width: 1180, height: 900 }, timeout: TIMEOUT, problems }));
       await page.goto(INDEX_URL, { waitUntil: "load" });
       await page.waitForSelector('#results[data-state="current"]');
       // The default case with a constant-power load (the drive's DC link).
